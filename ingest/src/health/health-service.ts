@@ -1,0 +1,56 @@
+// Whether the parts the service depends on are up: the database and the broker.
+import type { Knex } from 'knex';
+import type { EmbeddedBroker } from '../broker/broker';
+
+export interface HealthReport {
+  status: 'ok' | 'degraded';
+  time: string;
+  uptimeSeconds: number;
+  database: { up: boolean; latencyMs?: number; error?: string };
+  broker: { up: boolean; clients?: number; messagesReceived?: number; error?: string };
+}
+
+export class HealthService {
+  private readonly startedAt = Date.now();
+
+  constructor(
+    private readonly knex: Knex,
+    private readonly broker: () => EmbeddedBroker | null,
+    private readonly timeoutMs: number,
+  ) {}
+
+  async report(): Promise<HealthReport> {
+    const [database] = await Promise.all([this.checkDatabase()]);
+    const b = this.broker();
+    const broker = b
+      ? b.isUp()
+        ? { up: true, ...b.stats() }
+        : { up: false, error: 'broker is not listening' }
+      : { up: false, error: 'broker not started' };
+    return {
+      status: database.up && broker.up ? 'ok' : 'degraded',
+      time: new Date().toISOString(),
+      uptimeSeconds: Math.round((Date.now() - this.startedAt) / 1000),
+      database,
+      broker,
+    };
+  }
+
+  private async checkDatabase(): Promise<HealthReport['database']> {
+    const started = performance.now();
+    let timer: NodeJS.Timeout | undefined;
+    try {
+      await Promise.race([
+        this.knex.raw('select 1'),
+        new Promise((_, reject) => {
+          timer = setTimeout(() => reject(new Error(`no answer within ${this.timeoutMs} ms`)), this.timeoutMs);
+        }),
+      ]);
+      return { up: true, latencyMs: Math.round((performance.now() - started) * 10) / 10 };
+    } catch (err) {
+      return { up: false, error: (err as Error).message };
+    } finally {
+      clearTimeout(timer);
+    }
+  }
+}
