@@ -1,54 +1,96 @@
-// The demo fleet simulator. Each demo estimator publishes one innovation sample a
-// second over MQTT with its unit's own credentials.
-// Until the ingest pipeline lands, the innovations are drawn from the filter's own
-// predicted covariance (a consistent estimator); the plant-and-filter simulation with
-// injected faults replaces this.
-import mqtt from 'mqtt';
-import { demoDeviceSecret, demoUnits } from '../ingest/src/demo/saltmarsh';
-import { innovationsTopic } from '../ingest/src/broker/topics';
+// The fleet simulator's command line: `npm run simulate -- --help`.
+// By default the Saltmarsh Terminal demo with its fault schedule, until Ctrl-C.
+import { CliError, DEMO_UNIT_COUNT, describeFaults, parseCliOptions, usage } from './src/cli-options';
+import { ConnectionRefusedError, startFleet, type FleetStats } from './src/publisher';
+import { fleetOfSize } from './src/saltmarsh-fleet';
 
-const url = process.env.WHITECAP_MQTT_URL ?? `mqtt://127.0.0.1:${process.env.WHITECAP_MQTT_PORT ?? 1886}`;
-const intervalMs = Number(process.env.WHITECAP_SIM_INTERVAL_MS ?? 1000);
-
-function gaussian(): number {
-  // Box–Muller transform.
-  const u = 1 - Math.random();
-  const v = Math.random();
-  return Math.sqrt(-2 * Math.log(u)) * Math.cos(2 * Math.PI * v);
+function progress(s: FleetStats): string {
+  const parts = [
+    `${s.connected}/${s.units} units connected`,
+    `${s.generated} samples generated`,
+    `${s.published} messages published`,
+    `${s.acked} acknowledged`,
+  ];
+  if (s.refused) parts.push(`${s.refused} units refused`);
+  if (s.failed) parts.push(`${s.failed} failed`);
+  if (s.withheld) parts.push(`${s.withheld} withheld by faults`);
+  if (s.malformed) parts.push(`${s.malformed} malformed`);
+  if (s.lostOffline) parts.push(`${s.lostOffline} lost while disconnected`);
+  if (s.skipped) parts.push(`${s.skipped} skipped (fell behind)`);
+  return `fleet simulator: ${parts.join(', ')}`;
 }
 
-const clients: mqtt.MqttClient[] = [];
-let sent = 0;
-for (const unit of demoUnits) {
-  const client = mqtt.connect(url, {
-    username: unit.key,
-    password: demoDeviceSecret(unit.key),
-    clientId: `sim-${unit.key}`,
-    reconnectPeriod: 2000,
+function main(): void {
+  let options;
+  try {
+    options = parseCliOptions(process.argv.slice(2), process.env);
+  } catch (err) {
+    if (!(err instanceof CliError)) throw err;
+    console.error(`fleet simulator: ${err.message}\n(npm run simulate -- --help lists the options)`);
+    process.exit(2);
+  }
+  if (options.help) {
+    console.log(usage(process.env));
+    return;
+  }
+
+  const units = fleetOfSize(options.units);
+  const reported = new Set<string>();
+  const fleet = startFleet({
+    url: options.url,
+    units,
+    rate: options.rate,
+    batchSize: options.batchSize,
+    faults: options.faults,
+    seed: options.seed,
+    reference: options.reference,
+    time: options.time,
+    onError: (unit, err) => {
+      // a refusal once per unit; anything else (the broker unreachable, say) once per kind, not per unit and attempt
+      const refused = err instanceof ConnectionRefusedError;
+      const key = refused ? `${unit}\u0000${err.message}` : err.message;
+      if (reported.has(key)) return;
+      reported.add(key);
+      console.error(`fleet simulator: ${refused ? err.message : `${err.message} (retrying every 2 s)`}`);
+    },
   });
-  clients.push(client);
-  client.on('error', (err) => console.error(`${unit.key}: ${err.message}`));
-  const seq = new Map<string, number>();
-  setInterval(() => {
-    if (!client.connected) return;
-    for (const e of unit.estimators) {
-      const n = (seq.get(e.key) ?? 0) + 1;
-      seq.set(e.key, n);
-      const sigma = 0.5;
-      const nu = Array.from({ length: e.measurementDim }, () => sigma * gaussian());
-      const S = nu.map((_, i) => nu.map((__, j) => (i === j ? sigma * sigma : 0)));
-      const payload = JSON.stringify({ v: 1, seq: n, t: new Date().toISOString(), nu, S });
-      client.publish(innovationsTopic(unit.key, e.key), payload, { qos: 1 });
-      sent += 1;
-    }
-  }, intervalMs);
-}
-console.log(`fleet simulator: ${demoUnits.length} units publishing to ${url}`);
-setInterval(() => console.log(`fleet simulator: ${sent} samples sent`), 60_000).unref();
+  const estimators = units.reduce((n, u) => n + u.estimators.length, 0);
+  console.log(
+    `fleet simulator: ${units.length} units, ${estimators} estimators, ${options.rate} sample/s each` +
+      `${options.batchSize > 1 ? `, batches of ${options.batchSize}` : ''}, publishing to ${options.url}`,
+  );
+  if (units.length > DEMO_UNIT_COUNT) {
+    console.log('fleet simulator: synthetic tractors need device credentials in the database; the demo seed creates none');
+  }
+  for (const f of describeFaults(options.faults)) console.log(`fleet simulator: fault ${f}`);
 
-function stop(): void {
-  for (const c of clients) c.end(true);
-  process.exit(0);
+  const statsTimer =
+    options.statsEveryS > 0 ? setInterval(() => console.log(progress(fleet.stats())), options.statsEveryS * 1000) : undefined;
+  statsTimer?.unref();
+
+  let stopping = false;
+  const stop = (why: string): void => {
+    if (stopping) {
+      console.error('fleet simulator: stopping at once');
+      process.exit(1);
+    }
+    stopping = true;
+    if (statsTimer) clearInterval(statsTimer);
+    console.log(`fleet simulator: ${why}, stopping`);
+    fleet.stop({ drainMs: 2000 }).then(
+      (s) => {
+        console.log(progress(s));
+        process.exit(0);
+      },
+      (err: Error) => {
+        console.error(`fleet simulator: ${err.message}`);
+        process.exit(1);
+      },
+    );
+  };
+  process.on('SIGINT', () => stop('SIGINT'));
+  process.on('SIGTERM', () => stop('SIGTERM'));
+  if (options.durationS !== undefined) setTimeout(() => stop(`${options.durationS} s elapsed`), options.durationS * 1000);
 }
-process.on('SIGINT', stop);
-process.on('SIGTERM', stop);
+
+main();

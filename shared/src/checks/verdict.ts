@@ -1,0 +1,78 @@
+/**
+ * Verdict words and how checks combine them. A check says 'consistent' when it
+ * has no evidence against the filter, 'marginal' when its statistic is outside
+ * the bounds at the marginal significance but not at the strict one, and
+ * 'inconsistent' when it is outside the strict bounds (or a drift detector has
+ * signalled recently). 'silent' (no data) is decided by the service from time.
+ */
+
+export type Verdict = 'consistent' | 'marginal' | 'inconsistent';
+export type EstimatorVerdict = Verdict | 'silent';
+
+/** 0 consistent, 1 marginal, 2 inconsistent. */
+export type Severity = 0 | 1 | 2;
+
+const VERDICTS: readonly Verdict[] = ['consistent', 'marginal', 'inconsistent'];
+
+export function verdictOf(severity: Severity): Verdict {
+  return VERDICTS[severity];
+}
+
+export function severityOf(verdict: Verdict): Severity {
+  return verdict === 'inconsistent' ? 2 : verdict === 'marginal' ? 1 : 0;
+}
+
+/** The worse of two verdicts. */
+export function worseVerdict(a: Verdict, b: Verdict): Verdict {
+  return severityOf(a) >= severityOf(b) ? a : b;
+}
+
+/** Shared significance settings of the hypothesis-test checks. */
+export interface Significance {
+  /** Strict level: rejection here makes the check 'inconsistent'. */
+  alpha: number;
+  /** Marginal level (≥ alpha): rejection here only makes it 'marginal'. */
+  alphaMarginal: number;
+}
+
+export function assertSignificance({ alpha, alphaMarginal }: Significance): void {
+  if (!(alpha > 0 && alpha < 1)) throw new RangeError(`alpha must be in (0, 1), got ${alpha}`);
+  if (!(alphaMarginal >= alpha && alphaMarginal < 1)) {
+    throw new RangeError(`alphaMarginal must be in [alpha, 1), got ${alphaMarginal} with alpha ${alpha}`);
+  }
+}
+
+export function assertWindowLength(windowLength: number, minimum = 2): void {
+  if (!Number.isInteger(windowLength) || windowLength < minimum) {
+    throw new RangeError(`window length must be an integer ≥ ${minimum}, got ${windowLength}`);
+  }
+}
+
+/** Restoring a checkpoint that does not fit the check it is given to. */
+export class CheckpointError extends Error {
+  override readonly name = 'CheckpointError';
+}
+
+export function expectKind(state: unknown, kind: string, version: number): Record<string, unknown> {
+  if (typeof state !== 'object' || state === null) throw new CheckpointError(`${kind}: checkpoint is not an object`);
+  const record = state as Record<string, unknown>;
+  if (record['kind'] !== kind) throw new CheckpointError(`expected a '${kind}' checkpoint, got '${String(record['kind'])}'`);
+  if (record['version'] !== version) {
+    throw new CheckpointError(`${kind}: checkpoint version ${String(record['version'])} is not the supported ${version}`);
+  }
+  return record;
+}
+
+export function expectNumberArray(value: unknown, length: number, what: string): number[] {
+  if (!Array.isArray(value) || value.length !== length || !value.every((v) => typeof v === 'number' && Number.isFinite(v))) {
+    throw new CheckpointError(`${what}: expected ${length} finite numbers`);
+  }
+  return value as number[];
+}
+
+export function expectInteger(value: unknown, min: number, max: number, what: string): number {
+  if (typeof value !== 'number' || !Number.isInteger(value) || value < min || value > max) {
+    throw new CheckpointError(`${what}: expected an integer in [${min}, ${max}], got ${String(value)}`);
+  }
+  return value;
+}
