@@ -34,17 +34,60 @@ const schema = z.object({
   WHITECAP_RUN_BROKER: bool.default(true),
   WHITECAP_JWT_SECRET: z.string().min(32, 'must be at least 32 characters').optional(),
   WHITECAP_ACCESS_TOKEN_TTL_S: positiveInt.max(86_400, 'must be at most 86400 (one day)').default(900),
+  WHITECAP_EXTERNAL_MQTT_URL: z.string().regex(/^(mqtts?|wss?|tcp|ssl):\/\//, 'must be an mqtt://, mqtts://, ws:// or wss:// URL').optional(),
+  WHITECAP_EXTERNAL_MQTT_USERNAME: z.string().optional(),
+  WHITECAP_EXTERNAL_MQTT_PASSWORD: z.string().optional(),
+  WHITECAP_WORKER_ID: z.string().regex(/^[A-Za-z0-9_-]{1,64}$/, 'must be 1 to 64 letters, digits, - or _').default('whitecap-ingest'),
+  WHITECAP_RETENTION_DAYS: positiveInt.default(14),
+  WHITECAP_ROLLUP_RETENTION_DAYS: positiveInt.default(400),
+  WHITECAP_MAX_QUEUED_SAMPLES: positiveInt.default(50_000),
+  WHITECAP_MAX_BATCH_SAMPLES: positiveInt.default(5000),
+  WHITECAP_ALERT_HOLD_MS: z.coerce.number({ error: 'must be a number' }).int('must be a whole number').min(0, 'must be 0 or more').default(60_000),
+  WHITECAP_STATUS_EVERY_MS: positiveInt.default(5000),
+  WHITECAP_SILENCE_FACTOR: z.coerce.number({ error: 'must be a number' }).min(1, 'must be at least 1').default(10),
+  WHITECAP_SWEEP_EVERY_MS: positiveInt.default(2000),
+  WHITECAP_CHECKPOINT_EVERY_MS: positiveInt.default(30_000),
+  WHITECAP_WINDOW_LENGTH: positiveInt.min(10, 'must be at least 10').default(100),
+  WHITECAP_ALPHA: z.coerce.number({ error: 'must be a number' }).gt(0, 'must be between 0 and 1').lt(1, 'must be between 0 and 1').default(0.001),
+  WHITECAP_ALPHA_MARGINAL: z.coerce.number({ error: 'must be a number' }).gt(0, 'must be between 0 and 1').lt(1, 'must be between 0 and 1').default(0.01),
+  WHITECAP_ALERT_P_VALUE: z.coerce.number({ error: 'must be a number' }).gt(0, 'must be between 0 and 1').lt(1, 'must be between 0 and 1').default(1e-6),
+  WHITECAP_CUSUM_ARL0: z.coerce.number({ error: 'must be a number' }).min(100, 'must be at least 100').default(1e7),
 });
 
 export interface Config {
   http: { host: string; port: number; publicUrl: string };
-  mqtt: { enabled: boolean; host: string; port: number };
+  mqtt: {
+    enabled: boolean;
+    host: string;
+    port: number;
+    /** Take innovations from this external broker instead of running the embedded one. */
+    external: { url: string; username?: string; password?: string; clientId: string } | null;
+  };
   database: { url: string; poolMax: number };
   dashboardDir: string;
   logLevel: 'fatal' | 'error' | 'warn' | 'info' | 'debug' | 'trace' | 'silent';
   healthTimeoutMs: number;
   /** Without a configured secret, a random one is made at start (tokens end with the process). */
   auth: { jwtSecret: string | null; accessTokenTtlSeconds: number };
+  ingest: {
+    retentionDays: number;
+    rollupRetentionDays: number;
+    /** Samples waiting for the database beyond which the broker stops taking messages. */
+    maxQueuedSamples: number;
+    maxBatchSamples: number;
+    alertHoldMs: number;
+    statusEveryMs: number;
+    silenceFactor: number;
+    sweepEveryMs: number;
+    checkpointEveryMs: number;
+    /** The checks: window length N, significance of 'inconsistent' and 'marginal', CUSUM in-control ARL. */
+    windowLength: number;
+    alpha: number;
+    alphaMarginal: number;
+    cusumArl0: number;
+    /** p-value below which a window test pages (see ingest/src/pipeline/alert-rules.ts). */
+    alertPValue: number;
+  };
 }
 
 export class ConfigError extends Error {
@@ -71,18 +114,51 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     throw new ConfigError(problems);
   }
   const v = parsed.data;
+  if (v.WHITECAP_ALPHA_MARGINAL < v.WHITECAP_ALPHA) {
+    throw new ConfigError([
+      `WHITECAP_ALPHA_MARGINAL=${v.WHITECAP_ALPHA_MARGINAL}: must be at least WHITECAP_ALPHA (${v.WHITECAP_ALPHA})`,
+    ]);
+  }
   return {
     http: {
       host: v.WHITECAP_HTTP_HOST,
       port: v.WHITECAP_HTTP_PORT,
       publicUrl: v.WHITECAP_PUBLIC_URL ?? `http://${v.WHITECAP_HTTP_HOST}:${v.WHITECAP_HTTP_PORT}`,
     },
-    mqtt: { enabled: v.WHITECAP_RUN_BROKER, host: v.WHITECAP_MQTT_HOST, port: v.WHITECAP_MQTT_PORT },
+    mqtt: {
+      enabled: v.WHITECAP_RUN_BROKER && !v.WHITECAP_EXTERNAL_MQTT_URL,
+      host: v.WHITECAP_MQTT_HOST,
+      port: v.WHITECAP_MQTT_PORT,
+      external: v.WHITECAP_EXTERNAL_MQTT_URL
+        ? {
+            url: v.WHITECAP_EXTERNAL_MQTT_URL,
+            username: v.WHITECAP_EXTERNAL_MQTT_USERNAME,
+            password: v.WHITECAP_EXTERNAL_MQTT_PASSWORD,
+            clientId: v.WHITECAP_WORKER_ID,
+          }
+        : null,
+    },
     database: { url: v.WHITECAP_DATABASE_URL, poolMax: v.WHITECAP_DB_POOL_MAX },
     dashboardDir: v.WHITECAP_DASHBOARD_DIR,
     logLevel: v.WHITECAP_LOG_LEVEL,
     healthTimeoutMs: v.WHITECAP_HEALTH_TIMEOUT_MS,
     auth: { jwtSecret: v.WHITECAP_JWT_SECRET ?? null, accessTokenTtlSeconds: v.WHITECAP_ACCESS_TOKEN_TTL_S },
+    ingest: {
+      retentionDays: v.WHITECAP_RETENTION_DAYS,
+      rollupRetentionDays: v.WHITECAP_ROLLUP_RETENTION_DAYS,
+      maxQueuedSamples: v.WHITECAP_MAX_QUEUED_SAMPLES,
+      maxBatchSamples: v.WHITECAP_MAX_BATCH_SAMPLES,
+      alertHoldMs: v.WHITECAP_ALERT_HOLD_MS,
+      statusEveryMs: v.WHITECAP_STATUS_EVERY_MS,
+      silenceFactor: v.WHITECAP_SILENCE_FACTOR,
+      sweepEveryMs: v.WHITECAP_SWEEP_EVERY_MS,
+      checkpointEveryMs: v.WHITECAP_CHECKPOINT_EVERY_MS,
+      windowLength: v.WHITECAP_WINDOW_LENGTH,
+      alpha: v.WHITECAP_ALPHA,
+      alphaMarginal: v.WHITECAP_ALPHA_MARGINAL,
+      cusumArl0: v.WHITECAP_CUSUM_ARL0,
+      alertPValue: v.WHITECAP_ALERT_P_VALUE,
+    },
   };
 }
 

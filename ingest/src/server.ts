@@ -1,37 +1,185 @@
-// Assembles the service: database, broker, HTTP. One process holds all three.
+// Assembles the service: database, pipeline, broker, HTTP. One process holds all.
 import { randomBytes } from 'node:crypto';
 import http from 'node:http';
+import type { Knex } from 'knex';
+import pg from 'pg';
 import { AuthService } from './auth/auth-service';
 import { createPassport } from './auth/passport-setup';
 import { UsersRepository } from './auth/users-repository';
-import type { Knex } from 'knex';
 import { startBroker, type EmbeddedBroker } from './broker/broker';
+import { startExternalSubscriber, type ExternalSubscriber } from './broker/external-subscriber';
+import { systemClock, type Clock } from './clock';
 import type { Config } from './config';
 import { createKnex } from './db/knex';
+import { ServiceEvents } from './events';
 import { HealthService } from './health/health-service';
 import { createApp } from './http/app';
 import type { Logger } from './logger';
+import { createMetrics, type Metrics } from './metrics';
+import type { RuleName } from './pipeline/alert-rules';
+import { BatchWriter, type StatusRow, type VerdictWord } from './pipeline/batch-writer';
+import { EstimatorRegistry } from './pipeline/estimator-registry';
+import { IngestPipeline } from './pipeline/ingest-pipeline';
+import { PartitionManager } from './pipeline/partitions';
 
 export interface RunningService {
   knex: Knex;
   broker: EmbeddedBroker | null;
+  pipeline: IngestPipeline;
+  events: ServiceEvents;
+  metrics: Metrics;
   httpPort: number;
   stop(): Promise<void>;
 }
 
-export async function startService(config: Config, logger: Logger): Promise<RunningService> {
+const ms = (d: Date | null | undefined): number | null => (d ? d.getTime() : null);
+
+export async function startService(config: Config, logger: Logger, clock: Clock = systemClock): Promise<RunningService> {
   const knex = createKnex(config.database.url, config.database.poolMax);
+  const pool = new pg.Pool({ connectionString: config.database.url, max: 4, connectionTimeoutMillis: 5000 });
+  pool.on('error', (err) => logger.warn({ err: err.message }, 'idle database connection failed'));
+  const metrics = createMetrics();
+  const events = new ServiceEvents();
+
+  const writer = new BatchWriter({
+    pool,
+    logger,
+    maxBatchSamples: config.ingest.maxBatchSamples,
+    // An external broker hands over one message per commit (see external-subscriber.ts): do not linger.
+    lingerMs: config.mqtt.external ? 0 : 20,
+    onCommitted: ({ samples, ms: took }) => {
+      if (samples > 0) metrics.batchSamples.observe(samples);
+      metrics.batchSeconds.observe(took / 1000);
+    },
+  });
+  const registry = new EstimatorRegistry(knex);
+  const pipeline = new IngestPipeline(
+    {
+      registry,
+      writer,
+      clock,
+      logger,
+      metrics,
+      events,
+      async loadCheckpoint(estimatorId) {
+        const row = await knex('estimator_checkpoints').where({ estimator_id: estimatorId }).first('state');
+        const st = await knex('estimator_status').where({ estimator_id: estimatorId }).first();
+        if (!row && !st) return null;
+        const status: Partial<StatusRow> | null = st
+          ? {
+              verdict: st.verdict as VerdictWord,
+              verdictSinceMs: ms(st.verdict_since) ?? undefined,
+              lastSampleAtMs: ms(st.last_sample_at),
+              lastReceivedAtMs: ms(st.last_received_at),
+              lastSeq: st.last_seq === null ? null : Number(st.last_seq),
+            }
+          : null;
+        return { state: row?.state ?? null, status };
+      },
+      async unitIdOf(unitKey) {
+        const u = await knex('units').where({ key: unitKey }).first('id');
+        return u ? Number(u.id) : null;
+      },
+    },
+    {
+      alertHoldMs: config.ingest.alertHoldMs,
+      statusEveryMs: config.ingest.statusEveryMs,
+      silenceFactor: config.ingest.silenceFactor,
+      maxAgeMs: config.ingest.retentionDays * 86_400_000,
+      alertPValue: config.ingest.alertPValue,
+      monitor: {
+        windowLength: config.ingest.windowLength,
+        alpha: config.ingest.alpha,
+        alphaMarginal: config.ingest.alphaMarginal,
+        arl0: config.ingest.cusumArl0,
+      },
+    },
+  );
+
+  const timers: NodeJS.Timeout[] = [];
+  const partitions = new PartitionManager();
+  try {
+    const count = await registry.loadAll();
+    logger.info({ estimators: count }, 'estimator registry loaded');
+    // Live alerts from before a restart: the rules pick them up so they clear in time.
+    const live = await knex('alerts').whereNot({ state: 'resolved' }).whereNotNull('estimator_id').select('estimator_id', 'rule', 'opened_at');
+    const byId = new Map([...registry.all()].map((e) => [e.id, e]));
+    for (const a of live) {
+      const info = byId.get(Number(a.estimator_id));
+      if (info) await pipeline.adoptLiveAlert(info, a.rule as RuleName, new Date(a.opened_at).getTime());
+    }
+    // Estimators seen before the restart are watched for silence from now on.
+    const seen = await knex('estimator_status').whereNotNull('last_received_at').pluck('estimator_id');
+    for (const id of seen) {
+      const info = byId.get(Number(id));
+      if (info) await pipeline.watch(info);
+    }
+  } catch (err) {
+    // The database may be down at start; the service still starts and says so on /api/health.
+    logger.error({ err: (err as Error).message }, 'could not load the fleet from the database at start');
+  }
+
   let broker: EmbeddedBroker | null = null;
   if (config.mqtt.enabled) {
-    broker = await startBroker({ host: config.mqtt.host, port: config.mqtt.port, knex, logger });
+    broker = await startBroker({
+      host: config.mqtt.host,
+      port: config.mqtt.port,
+      knex,
+      logger,
+      handle: (unit, estimator, topic, payload) => pipeline.handle(unit, estimator, topic, payload),
+      overloaded: () => {
+        const depth = writer.pendingSamples();
+        metrics.queueDepth.set(depth);
+        return depth >= config.ingest.maxQueuedSamples;
+      },
+      onRefused: (reason) => metrics.refused.inc({ reason }),
+    });
   }
-  const health = new HealthService(knex, () => broker, config.healthTimeoutMs);
+
+  const every = (periodMs: number, what: string, fn: () => Promise<unknown>) => {
+    let running = false;
+    const t = setInterval(() => {
+      if (running) return;
+      running = true;
+      fn()
+        .catch((err: Error) => logger.error({ err: err.message }, `${what} failed`))
+        .finally(() => (running = false));
+    }, periodMs);
+    t.unref();
+    timers.push(t);
+  };
+  every(config.ingest.sweepEveryMs, 'sweep', () => pipeline.sweep());
+  every(config.ingest.checkpointEveryMs, 'checkpoint', () => pipeline.checkpoint());
+  every(3_600_000, 'retention', () => dropExpired());
+  every(1000, 'queue gauge', async () => metrics.queueDepth.set(writer.pendingSamples()));
+  const dropExpired = async () => {
+    const dropped = await partitions.dropExpired(pool, clock.now(), config.ingest.retentionDays);
+    const rollupCutoff = new Date(clock.now() - config.ingest.rollupRetentionDays * 86_400_000);
+    const rollups = await knex('estimator_rollups_minute').where('minute', '<', rollupCutoff).delete();
+    if (dropped.length > 0 || rollups > 0) logger.info({ dropped, rollups }, 'retention applied');
+  };
+  void dropExpired().catch((err: Error) => logger.warn({ err: err.message }, 'retention failed at start'));
+
+  let external: ExternalSubscriber | null = null;
+  if (config.mqtt.external) {
+    external = startExternalSubscriber({
+      ...config.mqtt.external,
+      logger,
+      handle: (unit, estimator, topic, payload) => pipeline.handle(unit, estimator, topic, payload),
+    });
+  }
+
+  const health = new HealthService(knex, () => broker ?? external, config.healthTimeoutMs, () => ({
+    writeQueueSamples: writer.pendingSamples(),
+    writesFailing: writer.isFailing(),
+    estimatorsStreaming: pipeline.streamCount(),
+  }));
   const secret = config.auth.jwtSecret ?? randomBytes(32).toString('base64url');
   if (!config.auth.jwtSecret) logger.info('no WHITECAP_JWT_SECRET set: using a random signing key for this run');
   const users = new UsersRepository(knex);
   const auth = new AuthService(users, secret, config.auth.accessTokenTtlSeconds);
   const passport = createPassport(auth, users, secret);
-  const app = createApp({ logger, health, auth, passport, dashboardDir: config.dashboardDir });
+  const app = createApp({ logger, health, auth, passport, metrics, dashboardDir: config.dashboardDir });
   const server = http.createServer(app);
   await new Promise<void>((resolve, reject) => {
     server.once('error', reject);
@@ -47,13 +195,23 @@ export async function startService(config: Config, logger: Logger): Promise<Runn
   return {
     knex,
     broker,
+    pipeline,
+    events,
+    metrics,
     httpPort,
     async stop() {
+      for (const t of timers) clearInterval(t);
+      // Stop taking messages first, then store what was taken, then checkpoint.
+      if (broker) await broker.close();
+      if (external) await external.close();
+      await pipeline.sweep().catch(() => undefined);
+      await pipeline.checkpoint().catch(() => undefined);
+      await writer.close();
       await new Promise<void>((resolve) => {
         server.close(() => resolve());
         server.closeAllConnections();
       });
-      if (broker) await broker.close();
+      await pool.end();
       await knex.destroy();
     },
   };

@@ -7,15 +7,23 @@ import type { Logger } from '../logger';
 import { authenticateDevice } from './device-auth';
 import { commandsTopic, parseInnovationsTopic } from './topics';
 
-import type { Aedes as AedesBroker, AedesPublishPacket, AuthenticateError, Client } from 'aedes';
+import type { Aedes as AedesBroker, AuthenticateError, Client } from 'aedes';
 
 export interface BrokerOptions {
   host: string;
   port: number;
   knex: Knex;
   logger: Logger;
-  /** Called for every accepted innovations message, after authorization. */
-  onInnovations?: (unit: string, estimator: string, payload: Buffer) => void;
+  /**
+   * Takes every innovations message a unit may publish. The broker acknowledges a
+   * QoS 1 message (PUBACK) only when the returned promise resolves: the pipeline
+   * resolves it once the message's samples, or its quarantine record, are committed.
+   */
+  handle?: (unit: string, estimator: string, topic: string, payload: Buffer) => Promise<void>;
+  /** True when the service should stop taking messages (its write queue is full). */
+  overloaded?: () => boolean;
+  /** Counts refusals by reason (metrics). */
+  onRefused?: (reason: string) => void;
 }
 
 export interface EmbeddedBroker {
@@ -68,9 +76,24 @@ export async function startBroker(options: BrokerOptions): Promise<EmbeddedBroke
       const topic = parseInnovationsTopic(packet.topic);
       if (!unit || !topic || topic.unit !== unit) {
         logger.warn({ unit, topic: packet.topic }, 'publish refused: not this unit\'s topic');
+        options.onRefused?.('foreign_topic');
         return done(new Error('not authorized to publish on this topic'));
       }
-      done(null);
+      if (options.overloaded?.()) {
+        // No PUBACK: the connection closes and the unit's client keeps the message to resend.
+        options.onRefused?.('backpressure');
+        return done(new Error('service busy: write queue full'));
+      }
+      messagesReceived += 1;
+      if (!options.handle) return done(null);
+      const payload = Buffer.isBuffer(packet.payload) ? packet.payload : Buffer.from(packet.payload);
+      options.handle(topic.unit, topic.estimator, packet.topic, payload).then(
+        () => done(null),
+        (err: Error) => {
+          logger.error({ err: err.message, topic: packet.topic }, 'message could not be taken');
+          done(err);
+        },
+      );
     },
     authorizeSubscribe(client, subscription, done) {
       const unit = client ? unitOf.get(client) : undefined;
@@ -82,17 +105,6 @@ export async function startBroker(options: BrokerOptions): Promise<EmbeddedBroke
       done(null, subscription);
     },
   });
-
-  aedes.subscribe(
-    'whitecap/v1/units/+/estimators/+/innovations',
-    (packet: AedesPublishPacket, cb: () => void) => {
-      messagesReceived += 1;
-      const topic = parseInnovationsTopic(packet.topic);
-      if (topic && options.onInnovations) options.onInnovations(topic.unit, topic.estimator, packet.payload as Buffer);
-      cb();
-    },
-    () => undefined,
-  );
 
   const server = net.createServer(aedes.handle);
   await new Promise<void>((resolve, reject) => {

@@ -1,6 +1,11 @@
 // Whether the parts the service depends on are up: the database and the broker.
 import type { Knex } from 'knex';
-import type { EmbeddedBroker } from '../broker/broker';
+
+/** The embedded broker, or the connection to an external one. */
+export interface MessageSource {
+  isUp(): boolean;
+  stats(): { clients: number; messagesReceived: number };
+}
 
 export interface HealthReport {
   status: 'ok' | 'degraded';
@@ -8,6 +13,7 @@ export interface HealthReport {
   uptimeSeconds: number;
   database: { up: boolean; latencyMs?: number; error?: string };
   broker: { up: boolean; clients?: number; messagesReceived?: number; error?: string };
+  pipeline?: { writeQueueSamples: number; writesFailing: boolean; estimatorsStreaming: number };
 }
 
 export class HealthService {
@@ -15,8 +21,9 @@ export class HealthService {
 
   constructor(
     private readonly knex: Knex,
-    private readonly broker: () => EmbeddedBroker | null,
+    private readonly broker: () => MessageSource | null,
     private readonly timeoutMs: number,
+    private readonly pipeline?: () => NonNullable<HealthReport['pipeline']>,
   ) {}
 
   async report(): Promise<HealthReport> {
@@ -33,6 +40,7 @@ export class HealthService {
       uptimeSeconds: Math.round((Date.now() - this.startedAt) / 1000),
       database,
       broker,
+      ...(this.pipeline ? { pipeline: this.pipeline() } : {}),
     };
   }
 

@@ -6,6 +6,7 @@ import { authRouter } from '../auth/auth-router';
 import type { AuthService } from '../auth/auth-service';
 import type { createPassport } from '../auth/passport-setup';
 import type { Logger } from '../logger';
+import type { Metrics } from '../metrics';
 import { healthRouter } from '../health/health-router';
 import type { HealthService } from '../health/health-service';
 import { notFound, problemHandler } from './problem';
@@ -15,6 +16,7 @@ export interface AppDeps {
   health: HealthService;
   auth: AuthService;
   passport: ReturnType<typeof createPassport>;
+  metrics: Metrics;
   dashboardDir: string;
 }
 
@@ -23,6 +25,11 @@ export function createApp(deps: AppDeps): Express {
   app.disable('x-powered-by');
   app.use(express.json({ limit: '1mb' }));
   app.use(deps.passport.initialize());
+
+  // Prometheus text format. Served on the HTTP listener, which is loopback by default.
+  app.get('/metrics', async (_req, res) => {
+    res.type(deps.metrics.registry.contentType).send(await deps.metrics.registry.metrics());
+  });
 
   const api = express.Router();
   api.use('/health', healthRouter(deps.health));

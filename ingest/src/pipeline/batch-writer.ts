@@ -1,0 +1,446 @@
+// The batch writer: everything the pipeline stores goes through here, in one
+// transaction per batch (never a round trip per sample). A caller's promise resolves
+// only once its rows are committed; the broker acknowledges a sample (PUBACK) then,
+// so "acknowledged" means "committed". While PostgreSQL is down the batch is retried
+// with backoff and kept in memory; `pendingSamples()` lets the broker stop taking
+// new samples beyond a bound, so units hold and resend instead of the service growing.
+import type { Pool, PoolClient } from 'pg';
+import type { Logger } from '../logger';
+import { PartitionManager, dayStart } from './partitions';
+
+export type VerdictWord = 'consistent' | 'marginal' | 'inconsistent' | 'silent';
+
+export interface SampleRow {
+  estimatorId: number;
+  tMs: number;
+  seq: number;
+  nis: number;
+  cusumUp: number;
+  cusumDown: number;
+  /** Innovation and whitened innovation as little-endian float32. */
+  nu: Buffer;
+  w: Buffer;
+  /** For the minute rollup: did this sample's NIS exceed its single-sample bound, and the verdict after it. */
+  exceeded: boolean;
+  verdict: VerdictWord;
+}
+
+export interface QuarantineRow {
+  receivedAtMs: number;
+  unitKey: string | null;
+  estimatorKey: string | null;
+  estimatorId: number | null;
+  topic: string;
+  reasonCode: string;
+  reason: string;
+  payload: Buffer;
+  payloadBytes: number;
+  sampleIndex: number | null;
+}
+
+export interface StatusRow {
+  estimatorId: number;
+  verdict: VerdictWord;
+  verdictSinceMs: number;
+  lastSampleAtMs: number | null;
+  lastReceivedAtMs: number | null;
+  lastSeq: number | null;
+  samplesAdded: number;
+  window: unknown;
+}
+
+export interface CheckpointRow {
+  estimatorId: number;
+  state: unknown;
+  samplesSeen: number;
+}
+
+export type AlertOp =
+  | {
+      kind: 'open';
+      estimatorId: number | null;
+      unitId: number | null;
+      rule: string;
+      severity: 'info' | 'warning' | 'critical';
+      summary: string;
+      evidence: unknown;
+      atMs: number;
+    }
+  | { kind: 'evidence'; estimatorId: number | null; unitId: number | null; rule: string; evidence: unknown; atMs: number }
+  | { kind: 'clear'; estimatorId: number | null; unitId: number | null; rule: string; evidence: unknown; atMs: number };
+
+export interface WriteParts {
+  samples?: SampleRow[];
+  quarantine?: QuarantineRow[];
+  status?: StatusRow[];
+  checkpoints?: CheckpointRow[];
+  alerts?: AlertOp[];
+}
+
+interface Entry {
+  parts: WriteParts;
+  resolve: () => void;
+}
+
+export interface BatchWriterOptions {
+  pool: Pool;
+  logger: Logger;
+  /** Samples per transaction at most (default 5000). */
+  maxBatchSamples?: number;
+  /** How long the first pending item waits for company before a flush (default 20 ms). */
+  lingerMs?: number;
+  /** Called after each committed batch (for metrics). */
+  onCommitted?: (info: { samples: number; quarantined: number; ms: number }) => void;
+}
+
+const VERDICT_RANK = `array['consistent','marginal','inconsistent','silent']`;
+
+export class BatchWriter {
+  private readonly pool: Pool;
+  private readonly logger: Logger;
+  private readonly maxBatchSamples: number;
+  private readonly lingerMs: number;
+  private readonly partitions = new PartitionManager();
+  private queue: Entry[] = [];
+  private queuedSamples = 0;
+  private timer: NodeJS.Timeout | null = null;
+  private flushing = false;
+  private closed = false;
+  private failingSince: number | null = null;
+  private idleWaiters: (() => void)[] = [];
+
+  constructor(private readonly options: BatchWriterOptions) {
+    this.pool = options.pool;
+    this.logger = options.logger;
+    this.maxBatchSamples = options.maxBatchSamples ?? 5000;
+    this.lingerMs = options.lingerMs ?? 20;
+  }
+
+  /** Samples waiting to be committed. */
+  pendingSamples(): number {
+    return this.queuedSamples;
+  }
+
+  /** True while the last attempt to write failed (the database is unreachable or refusing). */
+  isFailing(): boolean {
+    return this.failingSince !== null;
+  }
+
+  write(parts: WriteParts): Promise<void> {
+    if (this.closed) return Promise.reject(new Error('writer is closed'));
+    return new Promise<void>((resolve) => {
+      this.queue.push({ parts, resolve });
+      this.queuedSamples += parts.samples?.length ?? 0;
+      this.schedule();
+    });
+  }
+
+  /** Resolves once everything queued so far is committed. */
+  drain(): Promise<void> {
+    if (this.queue.length === 0 && !this.flushing) return Promise.resolve();
+    return new Promise((resolve) => {
+      this.idleWaiters.push(resolve);
+      this.schedule(true);
+    });
+  }
+
+  async close(): Promise<void> {
+    await this.drain();
+    this.closed = true;
+    if (this.timer) clearTimeout(this.timer);
+  }
+
+  private schedule(now = false): void {
+    if (this.flushing) return;
+    if (now || this.queuedSamples >= this.maxBatchSamples) {
+      if (this.timer) clearTimeout(this.timer);
+      this.timer = null;
+      void this.flushLoop();
+      return;
+    }
+    if (!this.timer) {
+      this.timer = setTimeout(() => {
+        this.timer = null;
+        void this.flushLoop();
+      }, this.lingerMs);
+    }
+  }
+
+  private async flushLoop(): Promise<void> {
+    if (this.flushing) return;
+    this.flushing = true;
+    let backoff = 100;
+    try {
+      while (this.queue.length > 0) {
+        let n = 0;
+        let samples = 0;
+        while (n < this.queue.length && (n === 0 || samples + (this.queue[n].parts.samples?.length ?? 0) <= this.maxBatchSamples)) {
+          samples += this.queue[n].parts.samples?.length ?? 0;
+          n += 1;
+        }
+        const batch = this.queue.slice(0, n);
+        const started = performance.now();
+        try {
+          await this.commit(batch.map((e) => e.parts));
+        } catch (err) {
+          if (this.failingSince === null) {
+            this.failingSince = Date.now();
+            this.logger.error({ err: (err as Error).message }, 'database write failed; holding the batch and retrying');
+          }
+          await new Promise((r) => setTimeout(r, backoff));
+          backoff = Math.min(backoff * 2, 5000);
+          continue;
+        }
+        if (this.failingSince !== null) {
+          this.logger.info({ downForMs: Date.now() - this.failingSince }, 'database writes resumed');
+          this.failingSince = null;
+        }
+        backoff = 100;
+        this.queue = this.queue.slice(n);
+        this.queuedSamples -= samples;
+        const quarantined = batch.reduce((a, e) => a + (e.parts.quarantine?.length ?? 0), 0);
+        this.options.onCommitted?.({ samples, quarantined, ms: performance.now() - started });
+        for (const e of batch) e.resolve();
+        // Let more arrive when the queue is small: batches of one sample help nobody.
+        if (this.queue.length > 0 && this.queuedSamples < this.maxBatchSamples / 10) {
+          await new Promise((r) => setTimeout(r, this.lingerMs));
+        }
+      }
+    } finally {
+      this.flushing = false;
+      if (this.queue.length > 0) this.schedule();
+      else {
+        const waiters = this.idleWaiters;
+        this.idleWaiters = [];
+        for (const w of waiters) w();
+      }
+    }
+  }
+
+  private async commit(all: WriteParts[]): Promise<void> {
+    const samples = all.flatMap((p) => p.samples ?? []);
+    const quarantine = all.flatMap((p) => p.quarantine ?? []);
+    const alerts = all.flatMap((p) => p.alerts ?? []);
+    // The latest status and checkpoint per estimator win; sample counts add up.
+    const status = new Map<number, StatusRow>();
+    for (const p of all) {
+      for (const s of p.status ?? []) {
+        const prev = status.get(s.estimatorId);
+        status.set(s.estimatorId, prev ? { ...s, samplesAdded: prev.samplesAdded + s.samplesAdded } : s);
+      }
+    }
+    const checkpoints = new Map<number, CheckpointRow>();
+    for (const p of all) for (const c of p.checkpoints ?? []) checkpoints.set(c.estimatorId, c);
+
+    const client = await this.pool.connect();
+    try {
+      if (samples.length > 0) await this.partitions.ensure(client, new Set(samples.map((s) => dayStart(s.tMs))));
+      await client.query('begin');
+      if (samples.length > 0) {
+        await insertSamples(client, samples);
+        await upsertRollups(client, samples);
+      }
+      if (quarantine.length > 0) await insertQuarantine(client, quarantine);
+      if (status.size > 0) await upsertStatus(client, [...status.values()]);
+      if (checkpoints.size > 0) await upsertCheckpoints(client, [...checkpoints.values()]);
+      for (const op of alerts) await applyAlertOp(client, op);
+      await client.query('commit');
+    } catch (err) {
+      await client.query('rollback').catch(() => undefined);
+      throw err;
+    } finally {
+      // A connection that failed mid-transaction is not reused.
+      client.release();
+    }
+  }
+}
+
+async function insertSamples(client: PoolClient, rows: SampleRow[]): Promise<void> {
+  const n = rows.length;
+  const e = new Array<number>(n);
+  const t = new Array<number>(n);
+  const seq = new Array<number>(n);
+  const nis = new Array<number>(n);
+  const up = new Array<number>(n);
+  const down = new Array<number>(n);
+  const nu = new Array<Buffer>(n);
+  const w = new Array<Buffer>(n);
+  for (let i = 0; i < n; i++) {
+    const r = rows[i];
+    e[i] = r.estimatorId;
+    t[i] = r.tMs / 1000;
+    seq[i] = r.seq;
+    nis[i] = r.nis;
+    up[i] = r.cusumUp;
+    down[i] = r.cusumDown;
+    nu[i] = r.nu;
+    w[i] = r.w;
+  }
+  await client.query({
+    name: 'wc_insert_samples',
+    text: `insert into innovation_samples (estimator_id, t, seq, nis, cusum_up, cusum_down, nu, w)
+           select e, to_timestamp(t), seq, nis, up, down, nu, w
+             from unnest($1::int[], $2::float8[], $3::bigint[], $4::real[], $5::real[], $6::real[], $7::bytea[], $8::bytea[])
+               as u(e, t, seq, nis, up, down, nu, w)
+           on conflict do nothing`,
+    values: [e, t, seq, nis, up, down, nu, w],
+  });
+}
+
+async function upsertRollups(client: PoolClient, rows: SampleRow[]): Promise<void> {
+  const rank = (v: VerdictWord) => ['consistent', 'marginal', 'inconsistent', 'silent'].indexOf(v);
+  const agg = new Map<string, { e: number; minute: number; n: number; sum: number; min: number; max: number; ex: number; up: number; down: number; verdict: VerdictWord }>();
+  for (const r of rows) {
+    const minute = Math.floor(r.tMs / 60_000) * 60_000;
+    const key = `${r.estimatorId}:${minute}`;
+    const a = agg.get(key);
+    if (!a) {
+      agg.set(key, { e: r.estimatorId, minute, n: 1, sum: r.nis, min: r.nis, max: r.nis, ex: r.exceeded ? 1 : 0, up: r.cusumUp, down: r.cusumDown, verdict: r.verdict });
+    } else {
+      a.n += 1;
+      a.sum += r.nis;
+      a.min = Math.min(a.min, r.nis);
+      a.max = Math.max(a.max, r.nis);
+      a.ex += r.exceeded ? 1 : 0;
+      a.up = Math.max(a.up, r.cusumUp);
+      a.down = Math.max(a.down, r.cusumDown);
+      if (rank(r.verdict) > rank(a.verdict)) a.verdict = r.verdict;
+    }
+  }
+  const list = [...agg.values()];
+  await client.query({
+    name: 'wc_upsert_rollups',
+    text: `insert into estimator_rollups_minute as r (estimator_id, minute, samples, nis_sum, nis_min, nis_max, exceedances, cusum_up_max, cusum_down_max, verdict)
+           select e, to_timestamp(m), n, s, mn, mx, ex, up, down, v
+             from unnest($1::int[], $2::float8[], $3::int[], $4::float8[], $5::real[], $6::real[], $7::int[], $8::real[], $9::real[], $10::text[])
+               as u(e, m, n, s, mn, mx, ex, up, down, v)
+           on conflict (estimator_id, minute) do update set
+             samples = r.samples + excluded.samples,
+             nis_sum = r.nis_sum + excluded.nis_sum,
+             nis_min = least(r.nis_min, excluded.nis_min),
+             nis_max = greatest(r.nis_max, excluded.nis_max),
+             exceedances = r.exceedances + excluded.exceedances,
+             cusum_up_max = greatest(r.cusum_up_max, excluded.cusum_up_max),
+             cusum_down_max = greatest(r.cusum_down_max, excluded.cusum_down_max),
+             verdict = (${VERDICT_RANK})[greatest(array_position(${VERDICT_RANK}, r.verdict), array_position(${VERDICT_RANK}, excluded.verdict))]`,
+    values: [
+      list.map((a) => a.e),
+      list.map((a) => a.minute / 1000),
+      list.map((a) => a.n),
+      list.map((a) => a.sum),
+      list.map((a) => a.min),
+      list.map((a) => a.max),
+      list.map((a) => a.ex),
+      list.map((a) => a.up),
+      list.map((a) => a.down),
+      list.map((a) => a.verdict),
+    ],
+  });
+}
+
+async function insertQuarantine(client: PoolClient, rows: QuarantineRow[]): Promise<void> {
+  await client.query({
+    name: 'wc_insert_quarantine',
+    text: `insert into quarantine (received_at, unit_key, estimator_key, estimator_id, topic, reason_code, reason, payload, payload_bytes, sample_index)
+           select to_timestamp(at), u, ek, e, topic, code, reason, payload, bytes, idx
+             from unnest($1::float8[], $2::text[], $3::text[], $4::int[], $5::text[], $6::text[], $7::text[], $8::bytea[], $9::int[], $10::int[])
+               as x(at, u, ek, e, topic, code, reason, payload, bytes, idx)`,
+    values: [
+      rows.map((r) => r.receivedAtMs / 1000),
+      rows.map((r) => r.unitKey),
+      rows.map((r) => r.estimatorKey),
+      rows.map((r) => r.estimatorId),
+      rows.map((r) => r.topic),
+      rows.map((r) => r.reasonCode),
+      rows.map((r) => r.reason),
+      rows.map((r) => r.payload),
+      rows.map((r) => r.payloadBytes),
+      rows.map((r) => r.sampleIndex),
+    ],
+  });
+}
+
+async function upsertStatus(client: PoolClient, rows: StatusRow[]): Promise<void> {
+  await client.query({
+    name: 'wc_upsert_status',
+    text: `insert into estimator_status as s (estimator_id, verdict, verdict_since, last_sample_at, last_received_at, last_seq, samples_total, "window", updated_at)
+           select e, v, to_timestamp(since), to_timestamp(ls), to_timestamp(lr), seq, n, w, now()
+             from unnest($1::int[], $2::text[], $3::float8[], $4::float8[], $5::float8[], $6::bigint[], $7::bigint[], $8::jsonb[])
+               as u(e, v, since, ls, lr, seq, n, w)
+           on conflict (estimator_id) do update set
+             verdict = excluded.verdict,
+             verdict_since = excluded.verdict_since,
+             last_sample_at = coalesce(greatest(s.last_sample_at, excluded.last_sample_at), s.last_sample_at, excluded.last_sample_at),
+             last_received_at = coalesce(greatest(s.last_received_at, excluded.last_received_at), s.last_received_at, excluded.last_received_at),
+             last_seq = coalesce(excluded.last_seq, s.last_seq),
+             samples_total = s.samples_total + excluded.samples_total,
+             "window" = excluded."window",
+             updated_at = now()`,
+    values: [
+      rows.map((r) => r.estimatorId),
+      rows.map((r) => r.verdict),
+      rows.map((r) => r.verdictSinceMs / 1000),
+      rows.map((r) => (r.lastSampleAtMs === null ? null : r.lastSampleAtMs / 1000)),
+      rows.map((r) => (r.lastReceivedAtMs === null ? null : r.lastReceivedAtMs / 1000)),
+      rows.map((r) => r.lastSeq),
+      rows.map((r) => r.samplesAdded),
+      rows.map((r) => JSON.stringify(r.window ?? {})),
+    ],
+  });
+}
+
+async function upsertCheckpoints(client: PoolClient, rows: CheckpointRow[]): Promise<void> {
+  await client.query({
+    name: 'wc_upsert_checkpoints',
+    text: `insert into estimator_checkpoints as c (estimator_id, state, samples_seen, saved_at)
+           select e, s, n, now() from unnest($1::int[], $2::jsonb[], $3::bigint[]) as u(e, s, n)
+           on conflict (estimator_id) do update set state = excluded.state, samples_seen = excluded.samples_seen, saved_at = now()`,
+    values: [rows.map((r) => r.estimatorId), rows.map((r) => JSON.stringify(r.state)), rows.map((r) => r.samplesSeen)],
+  });
+}
+
+const LIVE_ALERT = `coalesce(estimator_id, 0) = coalesce($1::int, 0) and coalesce(unit_id, 0) = coalesce($2::int, 0) and rule = $3 and state <> 'resolved'`;
+
+async function applyAlertOp(client: PoolClient, op: AlertOp): Promise<void> {
+  const at = op.atMs / 1000;
+  if (op.kind === 'open') {
+    const res = await client.query<{ id: string }>(
+      `insert into alerts (estimator_id, unit_id, rule, severity, state, summary, evidence, opened_at, last_evidence_at)
+       values ($1, $2, $3, $4, 'open', $5, $6, to_timestamp($7), to_timestamp($7))
+       on conflict do nothing returning id`,
+      [op.estimatorId, op.unitId, op.rule, op.severity, op.summary, JSON.stringify(op.evidence), at],
+    );
+    if (res.rows[0]) {
+      await client.query(
+        `insert into alert_events (alert_id, at, kind, data) values ($1, to_timestamp($2), 'opened', $3)`,
+        [res.rows[0].id, at, JSON.stringify(op.evidence)],
+      );
+    } else {
+      // Already live (an earlier open that survived a restart): refresh its evidence.
+      await client.query(
+        `update alerts set evidence = $4, last_evidence_at = to_timestamp($5), condition_cleared_at = null where ${LIVE_ALERT}`,
+        [op.estimatorId, op.unitId, op.rule, JSON.stringify(op.evidence), at],
+      );
+    }
+  } else if (op.kind === 'evidence') {
+    await client.query(`update alerts set evidence = $4, last_evidence_at = to_timestamp($5) where ${LIVE_ALERT}`, [
+      op.estimatorId,
+      op.unitId,
+      op.rule,
+      JSON.stringify(op.evidence),
+      at,
+    ]);
+  } else {
+    const res = await client.query<{ id: string }>(
+      `update alerts set state = 'resolved', resolved_at = to_timestamp($4), condition_cleared_at = to_timestamp($4)
+        where ${LIVE_ALERT} returning id`,
+      [op.estimatorId, op.unitId, op.rule, at],
+    );
+    for (const row of res.rows) {
+      await client.query(
+        `insert into alert_events (alert_id, at, kind, note, data) values ($1, to_timestamp($2), 'cleared', 'condition cleared for the hold time', $3)`,
+        [row.id, at, JSON.stringify(op.evidence)],
+      );
+    }
+  }
+}
