@@ -34,6 +34,8 @@ const schema = z.object({
   WHITECAP_RUN_BROKER: bool.default(true),
   WHITECAP_JWT_SECRET: z.string().min(32, 'must be at least 32 characters').optional(),
   WHITECAP_ACCESS_TOKEN_TTL_S: positiveInt.max(86_400, 'must be at most 86400 (one day)').default(900),
+  WHITECAP_MQTT_TLS_CERT: z.string().optional(),
+  WHITECAP_MQTT_TLS_KEY: z.string().optional(),
   WHITECAP_EXTERNAL_MQTT_URL: z.string().regex(/^(mqtts?|wss?|tcp|ssl):\/\//, 'must be an mqtt://, mqtts://, ws:// or wss:// URL').optional(),
   WHITECAP_EXTERNAL_MQTT_USERNAME: z.string().optional(),
   WHITECAP_EXTERNAL_MQTT_PASSWORD: z.string().optional(),
@@ -60,6 +62,8 @@ export interface Config {
     enabled: boolean;
     host: string;
     port: number;
+    /** PEM files: when both are set the embedded broker speaks MQTT over TLS (mqtts). */
+    tls: { certFile: string; keyFile: string } | null;
     /** Take innovations from this external broker instead of running the embedded one. */
     external: { url: string; username?: string; password?: string; clientId: string } | null;
   };
@@ -114,6 +118,9 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     throw new ConfigError(problems);
   }
   const v = parsed.data;
+  if (Boolean(v.WHITECAP_MQTT_TLS_CERT) !== Boolean(v.WHITECAP_MQTT_TLS_KEY)) {
+    throw new ConfigError(['WHITECAP_MQTT_TLS_CERT and WHITECAP_MQTT_TLS_KEY: set both (PEM files) or neither']);
+  }
   if (v.WHITECAP_ALPHA_MARGINAL < v.WHITECAP_ALPHA) {
     throw new ConfigError([
       `WHITECAP_ALPHA_MARGINAL=${v.WHITECAP_ALPHA_MARGINAL}: must be at least WHITECAP_ALPHA (${v.WHITECAP_ALPHA})`,
@@ -129,6 +136,10 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
       enabled: v.WHITECAP_RUN_BROKER && !v.WHITECAP_EXTERNAL_MQTT_URL,
       host: v.WHITECAP_MQTT_HOST,
       port: v.WHITECAP_MQTT_PORT,
+      tls:
+        v.WHITECAP_MQTT_TLS_CERT && v.WHITECAP_MQTT_TLS_KEY
+          ? { certFile: v.WHITECAP_MQTT_TLS_CERT, keyFile: v.WHITECAP_MQTT_TLS_KEY }
+          : null,
       external: v.WHITECAP_EXTERNAL_MQTT_URL
         ? {
             url: v.WHITECAP_EXTERNAL_MQTT_URL,

@@ -1,8 +1,10 @@
 // Assembles the service: database, pipeline, broker, HTTP. One process holds all.
 import { randomBytes } from 'node:crypto';
+import fs from 'node:fs';
 import http from 'node:http';
 import type { Knex } from 'knex';
 import pg from 'pg';
+import { AlertsRepository } from './alerts/alerts-repository';
 import { AuthService } from './auth/auth-service';
 import { createPassport } from './auth/passport-setup';
 import { UsersRepository } from './auth/users-repository';
@@ -124,6 +126,9 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
     broker = await startBroker({
       host: config.mqtt.host,
       port: config.mqtt.port,
+      tls: config.mqtt.tls
+        ? { cert: fs.readFileSync(config.mqtt.tls.certFile), key: fs.readFileSync(config.mqtt.tls.keyFile) }
+        : null,
       knex,
       logger,
       handle: (unit, estimator, topic, payload) => pipeline.handle(unit, estimator, topic, payload),
@@ -179,7 +184,7 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
   const users = new UsersRepository(knex);
   const auth = new AuthService(users, secret, config.auth.accessTokenTtlSeconds);
   const passport = createPassport(auth, users, secret);
-  const app = createApp({ logger, health, auth, passport, metrics, dashboardDir: config.dashboardDir });
+  const app = createApp({ logger, health, auth, passport, metrics, alerts: new AlertsRepository(knex), dashboardDir: config.dashboardDir });
   const server = http.createServer(app);
   await new Promise<void>((resolve, reject) => {
     server.once('error', reject);

@@ -139,6 +139,25 @@ describe('ingest: checks and alerts on simulated estimators', () => {
     expect(lost.summary).toMatch(/samples were lost/);
   });
 
+  it('shows the alerts in the API to a signed-in user, and to nobody else', async () => {
+    expect((await fetch(`${service.url}/api/alerts`)).status).toBe(401);
+    const signIn = await fetch(`${service.url}/api/auth/sign-in`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json' },
+      body: JSON.stringify({ email: 'viewer@saltmarsh.example', password: 'saltmarsh-viewer' }),
+    });
+    const { accessToken } = await signIn.json();
+    const res = await fetch(`${service.url}/api/alerts?state=live&limit=100`, { headers: { authorization: `Bearer ${accessToken}` } });
+    expect(res.status).toBe(200);
+    const body = await res.json();
+    const tractor33 = body.items.filter((a: { unitKey: string }) => a.unitKey === 'tractor-33');
+    expect(tractor33.length).toBeGreaterThan(0);
+    expect(tractor33[0]).toEqual(expect.objectContaining({ estimatorKey: 'position', siteKey: 'south-yard', state: 'open' }));
+    const bad = await fetch(`${service.url}/api/alerts?state=whatever`, { headers: { authorization: `Bearer ${accessToken}` } });
+    expect(bad.status).toBe(400);
+    expect(bad.headers.get('content-type')).toContain('application/problem+json');
+  });
+
   it('marks an estimator silent and raises a silence alert when it stops publishing, and clears it when it comes back', async () => {
     const id = await estimatorId('cabinet-05', 'thermal');
     await publish('cabinet-05', 'thermal', 'cabinet-thermal', 200);

@@ -2,6 +2,7 @@
 // credentials; a unit may publish only under its own topics and subscribe only to its
 // own command topic; anonymous connections are refused.
 import net from 'node:net';
+import tls from 'node:tls';
 import type { Knex } from 'knex';
 import type { Logger } from '../logger';
 import { authenticateDevice } from './device-auth';
@@ -12,6 +13,8 @@ import type { Aedes as AedesBroker, AuthenticateError, Client } from 'aedes';
 export interface BrokerOptions {
   host: string;
   port: number;
+  /** PEM certificate and key: listen with MQTT over TLS. */
+  tls?: { cert: Buffer; key: Buffer } | null;
   knex: Knex;
   logger: Logger;
   /**
@@ -106,7 +109,7 @@ export async function startBroker(options: BrokerOptions): Promise<EmbeddedBroke
     },
   });
 
-  const server = net.createServer(aedes.handle);
+  const server = options.tls ? tls.createServer({ cert: options.tls.cert, key: options.tls.key }, aedes.handle) : net.createServer(aedes.handle);
   await new Promise<void>((resolve, reject) => {
     server.once('error', reject);
     server.listen(options.port, options.host, () => {
@@ -116,7 +119,7 @@ export async function startBroker(options: BrokerOptions): Promise<EmbeddedBroke
   });
   const address = server.address();
   const port = typeof address === 'object' && address ? address.port : options.port;
-  logger.info({ host: options.host, port }, 'MQTT broker listening');
+  logger.info({ host: options.host, port, tls: Boolean(options.tls) }, 'MQTT broker listening');
 
   return {
     aedes,

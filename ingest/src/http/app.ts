@@ -2,7 +2,9 @@
 import fs from 'node:fs';
 import path from 'node:path';
 import express, { type Express } from 'express';
-import { authRouter } from '../auth/auth-router';
+import { alertsRouter } from '../alerts/alerts-router';
+import type { AlertsRepository } from '../alerts/alerts-repository';
+import { authRouter, requireSignedIn } from '../auth/auth-router';
 import type { AuthService } from '../auth/auth-service';
 import type { createPassport } from '../auth/passport-setup';
 import type { Logger } from '../logger';
@@ -17,6 +19,7 @@ export interface AppDeps {
   auth: AuthService;
   passport: ReturnType<typeof createPassport>;
   metrics: Metrics;
+  alerts: AlertsRepository;
   dashboardDir: string;
 }
 
@@ -34,6 +37,7 @@ export function createApp(deps: AppDeps): Express {
   const api = express.Router();
   api.use('/health', healthRouter(deps.health));
   api.use('/auth', authRouter(deps.auth, deps.passport));
+  api.use('/alerts', requireSignedIn(deps.passport), alertsRouter(deps.alerts));
   api.use(notFound);
   app.use('/api', api);
 
