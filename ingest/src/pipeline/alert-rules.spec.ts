@@ -1,4 +1,5 @@
-import { AlertRuleState, type Condition } from './alert-rules';
+import { EstimatorMonitor } from '../../../shared/src/index';
+import { AlertRuleState, conditionsFromReport, lostSamplesCondition, type Condition } from './alert-rules';
 
 const nis: Condition = { rule: 'nis-window', severity: 'critical', summary: 'NIS window out of bounds', evidence: { statistic: 300 } };
 const evaluated = new Set(['nis-window', 'bias'] as const);
@@ -44,5 +45,49 @@ describe('AlertRuleState', () => {
     s.adopt('bias', 0);
     s.evaluate([], evaluated, 5000);
     expect(s.evaluate([], evaluated, 6000)).toEqual([expect.objectContaining({ kind: 'clear', rule: 'bias' })]);
+  });
+});
+
+describe('conditionsFromReport', () => {
+  // A seeded scalar stream: innovations drawn with standard deviation `scale`, while the
+  // filter claims S = 1; the reference error e ~ N(0, scale²) against P = 1.
+  function report(scale: number, neesInVerdict = false) {
+    const monitor = new EstimatorMonitor({ m: 1, arl0: 1e7, neesInVerdict });
+    let state = 12345;
+    const uniform = () => {
+      state = (Math.imul(state, 1103515245) + 12345) >>> 0;
+      return (state + 0.5) / 2 ** 32;
+    };
+    const gauss = () => Math.sqrt(-2 * Math.log(uniform())) * Math.cos(2 * Math.PI * uniform());
+    for (let seq = 1; seq <= 300; seq++) {
+      monitor.ingest({ seq, t: seq * 1000, nu: [scale * gauss()], S: [[1]], e: [scale * gauss()], P: [[1]] });
+    }
+    return monitor.report();
+  }
+
+  it('finds nothing to page about on a consistent stream', () => {
+    expect(conditionsFromReport(report(1))).toEqual([]);
+  });
+
+  it('pages on the NIS window, naming the bounds, when the innovations are three times larger than the filter believes', () => {
+    const rules = conditionsFromReport(report(3));
+    const nis = rules.find((c) => c.rule === 'nis-window');
+    expect(nis?.severity).toBe('critical');
+    expect(nis?.summary).toMatch(/above its 99\.9 % chi-square bounds/);
+    expect(rules.map((c) => c.rule)).toContain('cusum-drift');
+  });
+
+  it('leaves NEES out of the pages unless the checks count it in the verdict', () => {
+    expect(conditionsFromReport(report(3)).some((c) => c.rule === 'nees-window')).toBe(false);
+    const withNees = conditionsFromReport(report(3, true), { alertPValue: 1e-6, neesAlerts: true });
+    expect(withNees.some((c) => c.rule === 'nees-window')).toBe(true);
+  });
+});
+
+describe('lostSamplesCondition', () => {
+  it('needs at least 3 lost samples and more than 1 % of the recent ones', () => {
+    expect(lostSamplesCondition(2, 10)).toBeNull();
+    expect(lostSamplesCondition(3, 1000)).toBeNull();
+    expect(lostSamplesCondition(10, 190)?.summary).toMatch(/10 of the last 200 samples were lost/);
   });
 });

@@ -57,9 +57,15 @@ const fmt = (x: number, digits = 3): string => (Number.isFinite(x) ? Number(x.to
  */
 export interface RuleSettings {
   alertPValue: number;
+  /**
+   * The NEES window test assumes independent NEES values; from one running filter they
+   * are strongly correlated in time, so its bounds only hold across independent runs
+   * (test rigs). It pages only when the checks count it in the verdict (`neesInVerdict`).
+   */
+  neesAlerts: boolean;
 }
 
-export const DEFAULT_RULE_SETTINGS: RuleSettings = { alertPValue: 1e-6 };
+export const DEFAULT_RULE_SETTINGS: RuleSettings = { alertPValue: 1e-6, neesAlerts: false };
 
 /** The rules whose conditions hold in this report, each with its evidence in words and numbers. */
 export function conditionsFromReport(report: EstimatorReport, settings: RuleSettings = DEFAULT_RULE_SETTINGS): Condition[] {
@@ -79,7 +85,7 @@ export function conditionsFromReport(report: EstimatorReport, settings: RuleSett
       evidence: { check: 'nis', ...c.nis },
     });
   }
-  if (c.nees && sure(c.nees.ready, c.nees.pValue)) {
+  if (settings.neesAlerts && c.nees && sure(c.nees.ready, c.nees.pValue)) {
     out.push({
       rule: 'nees-window',
       severity: RULE_SEVERITY['nees-window'],

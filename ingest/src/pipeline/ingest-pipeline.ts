@@ -287,7 +287,10 @@ export class IngestPipeline {
       window: summarizeReport(report),
     };
     stream.unsavedSamples = 0;
-    const conditions = conditionsFromReport(report, { alertPValue: this.settings.alertPValue });
+    const conditions = conditionsFromReport(report, {
+      alertPValue: this.settings.alertPValue,
+      neesAlerts: stream.monitor.config.neesInVerdict,
+    });
     const seq = report.checks?.sequence;
     if (seq) {
       // Counts over roughly the last LOSS_MEMORY samples: each newer sample weighs the older ones down.
