@@ -10,7 +10,9 @@ import { LocalPostgres, freePort } from './lib/postgres.mjs';
 import { bin, tsNode, ensureDashboardBuilt, ensureDependencies, requireFromProject, root } from './lib/project.mjs';
 
 const log = (msg) => console.log(`[test] ${msg}`);
-const jestArgs = process.argv.slice(2);
+// `npm test -- --quick …`: skip the type-check and the dashboard build (for quick local runs; CI never passes it).
+const quick = process.argv.includes('--quick');
+const jestArgs = process.argv.slice(2).filter((a) => a !== '--quick');
 
 function ensureChromium() {
   if (fs.existsSync('/usr/bin/chromium')) return;
@@ -38,8 +40,10 @@ function typecheck() {
 async function main() {
   ensureDependencies(log);
   ensureChromium();
-  typecheck();
-  ensureDashboardBuilt(log);
+  if (!quick) {
+    typecheck();
+    ensureDashboardBuilt(log);
+  }
 
   const pgRoot = fs.mkdtempSync(path.join(os.tmpdir(), 'whitecap-test-pg-'));
   const port = Number(process.env.WHITECAP_TEST_PG_PORT ?? (await freePort()));

@@ -34,6 +34,10 @@ const schema = z.object({
   WHITECAP_RUN_BROKER: bool.default(true),
   WHITECAP_JWT_SECRET: z.string().min(32, 'must be at least 32 characters').optional(),
   WHITECAP_ACCESS_TOKEN_TTL_S: positiveInt.max(86_400, 'must be at most 86400 (one day)').default(900),
+  WHITECAP_REFRESH_TOKEN_TTL_S: positiveInt.default(14 * 86_400),
+  WHITECAP_SIGN_IN_PER_MINUTE: positiveInt.default(10),
+  WHITECAP_LOCK_AFTER_FAILURES: positiveInt.default(5),
+  WHITECAP_LOCK_MS: positiveInt.default(15 * 60_000),
   WHITECAP_MQTT_TLS_CERT: z.string().optional(),
   WHITECAP_MQTT_TLS_KEY: z.string().optional(),
   WHITECAP_EXTERNAL_MQTT_URL: z.string().regex(/^(mqtts?|wss?|tcp|ssl):\/\//, 'must be an mqtt://, mqtts://, ws:// or wss:// URL').optional(),
@@ -72,7 +76,16 @@ export interface Config {
   logLevel: 'fatal' | 'error' | 'warn' | 'info' | 'debug' | 'trace' | 'silent';
   healthTimeoutMs: number;
   /** Without a configured secret, a random one is made at start (tokens end with the process). */
-  auth: { jwtSecret: string | null; accessTokenTtlSeconds: number };
+  auth: {
+    jwtSecret: string | null;
+    accessTokenTtlSeconds: number;
+    refreshTokenTtlSeconds: number;
+    /** Sign-in attempts per client address per minute. */
+    signInPerMinute: number;
+    /** Failed sign-ins in a row that lock an account, and for how long. */
+    lockAfterFailures: number;
+    lockMs: number;
+  };
   ingest: {
     retentionDays: number;
     rollupRetentionDays: number;
@@ -153,7 +166,14 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     dashboardDir: v.WHITECAP_DASHBOARD_DIR,
     logLevel: v.WHITECAP_LOG_LEVEL,
     healthTimeoutMs: v.WHITECAP_HEALTH_TIMEOUT_MS,
-    auth: { jwtSecret: v.WHITECAP_JWT_SECRET ?? null, accessTokenTtlSeconds: v.WHITECAP_ACCESS_TOKEN_TTL_S },
+    auth: {
+      jwtSecret: v.WHITECAP_JWT_SECRET ?? null,
+      accessTokenTtlSeconds: v.WHITECAP_ACCESS_TOKEN_TTL_S,
+      refreshTokenTtlSeconds: v.WHITECAP_REFRESH_TOKEN_TTL_S,
+      signInPerMinute: v.WHITECAP_SIGN_IN_PER_MINUTE,
+      lockAfterFailures: v.WHITECAP_LOCK_AFTER_FAILURES,
+      lockMs: v.WHITECAP_LOCK_MS,
+    },
     ingest: {
       retentionDays: v.WHITECAP_RETENTION_DAYS,
       rollupRetentionDays: v.WHITECAP_ROLLUP_RETENTION_DAYS,

@@ -10,7 +10,10 @@ export interface VerdictEvent {
 }
 
 export interface AlertEvent {
-  kind: 'open' | 'clear';
+  kind: 'open' | 'clear' | 'acknowledged' | 'note' | 'resolved';
+  /** Known for actions on a stored alert; the pipeline's own events name the estimator and rule. */
+  alertId?: number;
+  actor?: string;
   estimatorId: number | null;
   unitId: number | null;
   rule: string;
@@ -24,4 +27,10 @@ interface EventMap {
   alert: [AlertEvent];
 }
 
-export class ServiceEvents extends EventEmitter<EventMap> {}
+export class ServiceEvents extends EventEmitter<EventMap> {
+  constructor() {
+    super();
+    // Every dashboard on the live stream adds a listener.
+    this.setMaxListeners(0);
+  }
+}

@@ -4,9 +4,10 @@ import fs from 'node:fs';
 import http from 'node:http';
 import type { Knex } from 'knex';
 import pg from 'pg';
-import { AlertsRepository } from './alerts/alerts-repository';
 import { AuthService } from './auth/auth-service';
 import { createPassport } from './auth/passport-setup';
+import { RefreshTokensRepository } from './auth/refresh-tokens-repository';
+import { apiRoutes } from './http/api-routes';
 import { UsersRepository } from './auth/users-repository';
 import { startBroker, type EmbeddedBroker } from './broker/broker';
 import { startExternalSubscriber, type ExternalSubscriber } from './broker/external-subscriber';
@@ -182,9 +183,32 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
   const secret = config.auth.jwtSecret ?? randomBytes(32).toString('base64url');
   if (!config.auth.jwtSecret) logger.info('no WHITECAP_JWT_SECRET set: using a random signing key for this run');
   const users = new UsersRepository(knex);
-  const auth = new AuthService(users, secret, config.auth.accessTokenTtlSeconds);
+  const auth = new AuthService(users, new RefreshTokensRepository(knex), {
+    secret,
+    accessTtlSeconds: config.auth.accessTokenTtlSeconds,
+    refreshTtlSeconds: config.auth.refreshTokenTtlSeconds,
+    lockAfterFailures: config.auth.lockAfterFailures,
+    lockMs: config.auth.lockMs,
+  });
   const passport = createPassport(auth, users, secret);
-  const app = createApp({ logger, health, auth, passport, metrics, alerts: new AlertsRepository(knex), dashboardDir: config.dashboardDir });
+  const routes = apiRoutes(knex, events, clock, {
+    windowLength: config.ingest.windowLength,
+    alpha: config.ingest.alpha,
+    alphaMarginal: config.ingest.alphaMarginal,
+    lags: 10,
+    arl0: config.ingest.cusumArl0,
+  });
+  const app = createApp({
+    logger,
+    health,
+    auth,
+    passport,
+    authOptions: { secureCookies: config.http.publicUrl.startsWith('https:'), signInPerMinute: config.auth.signInPerMinute },
+    metrics,
+    routes,
+    publicUrl: config.http.publicUrl,
+    dashboardDir: config.dashboardDir,
+  });
   const server = http.createServer(app);
   await new Promise<void>((resolve, reject) => {
     server.once('error', reject);

@@ -1,45 +1,138 @@
-// Sign-in: e-mail and password checked against the bcrypt hash, then a short-lived
-// signed access token (JWT, HS256).
+// Sign-in and sessions. Passwords are bcrypt hashes (bcryptjs, pure JS). A session is a
+// short-lived signed access token (JWT, HS256) plus a long-lived refresh token kept in an
+// httpOnly cookie; refresh tokens are random, stored as SHA-256 digests, rotated on every
+// use, and revoked on sign-out. Presenting a refresh token that was already rotated or
+// revoked revokes every session of that user (it was stolen or replayed).
+// Repeated failed sign-ins lock the account for a while.
+import { createHash, randomBytes } from 'node:crypto';
 import bcrypt from 'bcryptjs';
 import jwt from 'jsonwebtoken';
-import type { Role, UserRow, UsersRepository } from './users-repository';
+import type { Role, User } from '../../../shared/src/api/api-types';
+import type { RefreshTokensRepository } from './refresh-tokens-repository';
+import type { UserRow, UsersRepository } from './users-repository';
 
-export interface PublicUser {
-  id: number;
-  email: string;
-  displayName: string;
-  role: Role;
-}
+export type PublicUser = User;
 
 export interface AccessTokenClaims {
   sub: string;
   role: Role;
 }
 
-export function publicUser(row: UserRow): PublicUser {
-  return { id: row.id, email: row.email, displayName: row.display_name, role: row.role };
+export function publicUser(row: UserRow): User {
+  return {
+    id: row.id,
+    email: row.email,
+    displayName: row.display_name,
+    role: row.role,
+    active: row.active,
+    createdAt: row.created_at ? new Date(row.created_at).toISOString() : undefined,
+  };
 }
+
+export class AuthError extends Error {
+  constructor(
+    readonly kind: 'bad-credentials' | 'locked' | 'session-expired' | 'weak-password',
+    message: string,
+  ) {
+    super(message);
+  }
+}
+
+/** The password policy: at least 10 characters, not the e-mail address, not one repeated character. */
+export function passwordProblem(password: string, email = ''): string | null {
+  if (password.length < 10) return 'must be at least 10 characters long';
+  if (password.length > 200) return 'must be at most 200 characters long';
+  if (email && password.toLowerCase() === email.toLowerCase()) return 'must not be the e-mail address';
+  if (/^(.)\1*$/.test(password)) return 'must not be one character repeated';
+  return null;
+}
+
+const sha256 = (s: string) => createHash('sha256').update(s).digest('hex');
 
 // A fixed hash to compare against when the e-mail is unknown, so that both paths take as long.
 const UNKNOWN_USER_HASH = bcrypt.hashSync('unknown-user-placeholder', 10);
 
+export interface AuthSettings {
+  secret: string;
+  accessTtlSeconds: number;
+  refreshTtlSeconds: number;
+  lockAfterFailures: number;
+  lockMs: number;
+}
+
 export class AuthService {
   constructor(
     private readonly users: UsersRepository,
-    private readonly secret: string,
-    private readonly accessTtlSeconds: number,
+    private readonly refreshTokens: RefreshTokensRepository,
+    private readonly settings: AuthSettings,
   ) {}
 
-  /** The user for these credentials, or null when they do not match an active account. */
-  async verifyPassword(email: string, password: string): Promise<PublicUser | null> {
+  /** The user for these credentials; throws AuthError when they do not match an active, unlocked account. */
+  async signIn(email: string, password: string): Promise<User> {
     const row = await this.users.findByEmail(email);
     const ok = await bcrypt.compare(password, row?.password_hash ?? UNKNOWN_USER_HASH);
-    return row && row.active && ok ? publicUser(row) : null;
+    if (row && row.locked_until && row.locked_until.getTime() > Date.now()) {
+      throw new AuthError('locked', 'Too many failed sign-ins: this account is locked for a few minutes.');
+    }
+    if (!row || !row.active || !ok) {
+      if (row) await this.users.recordFailure(row.id, this.settings.lockAfterFailures, this.settings.lockMs);
+      throw new AuthError('bad-credentials', 'That e-mail and password do not match an active account.');
+    }
+    if (row.failed_sign_ins > 0) await this.users.recordSuccess(row.id);
+    return publicUser(row);
   }
 
-  issueAccessToken(user: PublicUser): { accessToken: string; expiresIn: number } {
+  issueAccessToken(user: User): { accessToken: string; expiresIn: number } {
     const claims: AccessTokenClaims = { sub: String(user.id), role: user.role };
-    const accessToken = jwt.sign(claims, this.secret, { algorithm: 'HS256', expiresIn: this.accessTtlSeconds });
-    return { accessToken, expiresIn: this.accessTtlSeconds };
+    const accessToken = jwt.sign(claims, this.settings.secret, { algorithm: 'HS256', expiresIn: this.settings.accessTtlSeconds });
+    return { accessToken, expiresIn: this.settings.accessTtlSeconds };
+  }
+
+  async issueRefreshToken(userId: number): Promise<{ token: string; id: number; maxAgeMs: number }> {
+    const token = randomBytes(32).toString('base64url');
+    const maxAgeMs = this.settings.refreshTtlSeconds * 1000;
+    const id = await this.refreshTokens.insert(userId, sha256(token), new Date(Date.now() + maxAgeMs));
+    return { token, id, maxAgeMs };
+  }
+
+  /** Exchanges a refresh token for a new session (the old token stops working). */
+  async refresh(token: string): Promise<{ user: User; refresh: { token: string; maxAgeMs: number } }> {
+    const row = await this.refreshTokens.find(sha256(token));
+    if (!row) throw new AuthError('session-expired', 'Your session has ended; sign in again.');
+    if (row.revoked_at) {
+      // A used or revoked token presented again: end every session of this user.
+      await this.refreshTokens.revokeAllOf(row.user_id);
+      throw new AuthError('session-expired', 'Your session has ended; sign in again.');
+    }
+    if (row.expires_at.getTime() <= Date.now()) throw new AuthError('session-expired', 'Your session has expired; sign in again.');
+    const userRow = await this.users.findById(row.user_id);
+    if (!userRow || !userRow.active) {
+      await this.refreshTokens.revoke(row.id);
+      throw new AuthError('session-expired', 'This account is no longer active.');
+    }
+    const next = await this.issueRefreshToken(userRow.id);
+    await this.refreshTokens.revoke(row.id, next.id);
+    return { user: publicUser(userRow), refresh: next };
+  }
+
+  async signOut(token: string | undefined): Promise<void> {
+    if (!token) return;
+    const row = await this.refreshTokens.find(sha256(token));
+    if (row) await this.refreshTokens.revoke(row.id);
+  }
+
+  async changePassword(userId: number, current: string, next: string): Promise<void> {
+    const row = await this.users.findById(userId);
+    if (!row || !(await bcrypt.compare(current, row.password_hash))) {
+      throw new AuthError('bad-credentials', 'The current password is not right.');
+    }
+    const problem = passwordProblem(next, row.email);
+    if (problem) throw new AuthError('weak-password', `The new password ${problem}.`);
+    await this.users.update(userId, { password_hash: await bcrypt.hash(next, 10) });
+    await this.refreshTokens.revokeAllOf(userId);
+  }
+
+  static hashPassword(password: string): Promise<string> {
+    return bcrypt.hash(password, 10);
   }
 }

@@ -1,0 +1,47 @@
+// Every API route behind sign-in, assembled from the resource modules in one place.
+import type { Knex } from 'knex';
+import { fleetAdminRoutes } from '../admin/fleet-admin-routes';
+import { FleetAdminRepository } from '../admin/fleet-admin-repository';
+import { AlertsRepository } from '../alerts/alerts-repository';
+import { alertsRoutes } from '../alerts/alerts-routes';
+import { AlertsService } from '../alerts/alerts-service';
+import { UsersRepository } from '../auth/users-repository';
+import type { Clock } from '../clock';
+import { EstimatorsRepository } from '../estimators/estimators-repository';
+import { estimatorsRoutes } from '../estimators/estimators-routes';
+import { SeriesService } from '../estimators/series-service';
+import type { ServiceEvents } from '../events';
+import { FleetRepository } from '../fleet/fleet-repository';
+import { fleetRoutes } from '../fleet/fleet-routes';
+import { eventsRoutes } from '../live/events-routes';
+import { QuarantineRepository } from '../quarantine/quarantine-repository';
+import { quarantineRoutes } from '../quarantine/quarantine-routes';
+import { usersRoutes } from '../users/users-routes';
+import type { RouteDef } from './route-table';
+
+export interface ApiSettings {
+  windowLength: number;
+  alpha: number;
+  alphaMarginal: number;
+  lags: number;
+  arl0: number;
+}
+
+export function apiRoutes(knex: Knex, events: ServiceEvents, clock: Clock, settings: ApiSettings): RouteDef[] {
+  const alertsRepo = new AlertsRepository(knex);
+  const estimators = new EstimatorsRepository(knex);
+  return [
+    ...fleetRoutes(new FleetRepository(knex), clock),
+    ...estimatorsRoutes(
+      estimators,
+      new SeriesService(estimators, { ...settings, statsSamples: 20_000 }),
+      clock,
+      { windowLength: settings.windowLength, alpha: settings.alpha, alphaMarginal: settings.alphaMarginal, lags: settings.lags },
+    ),
+    ...alertsRoutes(alertsRepo, new AlertsService(knex, alertsRepo, events, clock)),
+    ...quarantineRoutes(new QuarantineRepository(knex), clock),
+    ...fleetAdminRoutes(new FleetAdminRepository(knex)),
+    ...usersRoutes(new UsersRepository(knex)),
+    ...eventsRoutes(events),
+  ];
+}
