@@ -57,8 +57,21 @@ describe('the dashboard, signed out', () => {
 
     await page.getByLabel('Password').fill('saltmarsh-responder');
     await page.getByRole('button', { name: 'Sign in' }).click();
-    await page.getByRole('heading', { name: /Welcome, Ravi Castellan/ }).waitFor();
+    await page.getByRole('heading', { name: 'Fleet', exact: true }).waitFor();
+    expect(page.url()).toBe(`${service.url}/fleet`);
+    await page.getByText('Ravi Castellan (on call)').waitFor();
     await page.getByText('Database: up').waitFor();
-    await page.screenshot({ path: path.join(screenshotDir, 'welcome.png'), fullPage: true });
+    await page.screenshot({ path: path.join(screenshotDir, 'signed-in.png'), fullPage: true });
+  });
+
+  it('keeps the session across a reload and ends it on sign-out', async () => {
+    await page.reload({ waitUntil: 'load' });
+    await page.getByRole('heading', { name: 'Fleet', exact: true }).waitFor();
+    expect(page.url()).toBe(`${service.url}/fleet`);
+    await page.getByRole('button', { name: 'Sign out' }).click();
+    await page.getByRole('heading', { name: 'Sign in to Whitecap' }).waitFor();
+    await page.goto(`${service.url}/alerts`, { waitUntil: 'load' });
+    await page.getByRole('heading', { name: 'Sign in to Whitecap' }).waitFor();
+    expect(page.url()).toBe(`${service.url}/sign-in?returnUrl=%2Falerts`);
   });
 });

@@ -49,9 +49,10 @@ describe('API resources', () => {
     expect(Object.values(body.counts).reduce((a, b) => a + b, 0)).toBe(64);
     expect(body.counts.inconsistent).toBeGreaterThanOrEqual(2);
     expect(body.liveAlerts.critical + body.liveAlerts.warning).toBeGreaterThan(0);
-    // Default sort: worst verdict first. Estimators that never published count as silent.
-    const rank = { consistent: 0, marginal: 1, inconsistent: 2, silent: 3 };
-    const ranks = body.items.map((i) => rank[i.verdict]);
+    // Default sort: worst first (inconsistent, silent, marginal, consistent), then those that never reported.
+    const rank = { consistent: 1, marginal: 2, silent: 3, inconsistent: 4 };
+    const ranks = body.items.map((i) => (i.lastSampleAt === null ? 0 : rank[i.verdict]));
+    expect(body.items[0].verdict).toBe('inconsistent');
     expect([...ranks].sort((a, b) => b - a)).toEqual(ranks);
     const t1 = body.items.find((i) => i.unitKey === 'tractor-01')!;
     expect(t1.samplesTotal).toBe(3600);
@@ -161,6 +162,15 @@ describe('API resources', () => {
     expect(received).toContain('event: verdict');
     expect(received).toContain('event: alert');
     expect((await fetch(`${service.url}/api/events`)).status).toBe(401);
+  });
+
+  it('lists the designs with their revisions and how many estimators run each', async () => {
+    const { body } = await api<{ items: { key: string; revisions: { revision: number; estimators: number }[] }[] }>(service.url, viewer, '/designs');
+    const tractor = body.items.find((d) => d.key === 'tractor-position')!;
+    expect(tractor.revisions.map((r) => [r.revision, r.estimators])).toEqual([
+      [1, 32],
+      [2, 8],
+    ]);
   });
 
   it('serves its OpenAPI 3.1 document and an interactive page for it', async () => {

@@ -1,6 +1,8 @@
 import { createTestDatabase, type TestDatabase } from '../support/database';
 import { freePort, startService, type ServiceHandle } from '../support/service';
 
+jest.setTimeout(60_000);
+
 describe('GET /api/health', () => {
   let db: TestDatabase;
   const services: ServiceHandle[] = [];

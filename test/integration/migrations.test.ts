@@ -11,6 +11,8 @@ async function userTables(knex: Knex): Promise<string[]> {
   return rows as string[];
 }
 
+jest.setTimeout(60_000);
+
 describe('migrations', () => {
   let db: TestDatabase;
   let knex: Knex;

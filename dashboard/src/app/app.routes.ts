@@ -1,4 +1,5 @@
 import { Routes } from '@angular/router';
+import { allowedFor } from './auth/role-guard';
 import { signedIn } from './auth/signed-in';
 
 export const routes: Routes = [
@@ -8,7 +9,38 @@ export const routes: Routes = [
     canActivate: [signedIn],
     loadComponent: () => import('./shell/shell').then((m) => m.Shell),
     children: [
-      { path: '', pathMatch: 'full', loadComponent: () => import('./shell/welcome').then((m) => m.Welcome), title: 'Whitecap' },
+      { path: '', pathMatch: 'full', redirectTo: 'fleet' },
+      {
+        path: 'fleet',
+        loadComponent: () => import('./fleet/fleet-overview').then((m) => m.FleetOverview),
+        title: 'Fleet · Whitecap',
+      },
+      {
+        path: 'estimators/:id',
+        loadComponent: () => import('./estimator/estimator-detail').then((m) => m.EstimatorDetail),
+        title: 'Estimator · Whitecap',
+      },
+      {
+        path: 'alerts',
+        loadComponent: () => import('./alerts/alert-inbox').then((m) => m.AlertInbox),
+        title: 'Alerts · Whitecap',
+        children: [
+          { path: '', children: [] },
+          { path: ':id', loadComponent: () => import('./alerts/alert-detail').then((m) => m.AlertDetail) },
+        ],
+      },
+      {
+        path: 'quarantine',
+        canActivate: [allowedFor('quarantine')],
+        loadComponent: () => import('./quarantine/quarantine').then((m) => m.Quarantine),
+        title: 'Quarantine · Whitecap',
+      },
+      {
+        path: 'admin',
+        canActivate: [allowedFor('administer')],
+        loadComponent: () => import('./admin/admin').then((m) => m.Admin),
+        title: 'Administration · Whitecap',
+      },
     ],
   },
   { path: '**', redirectTo: '' },

@@ -17,7 +17,9 @@ export interface FleetQuery {
 }
 
 const SEVERITY_RANK = `case a.severity when 'critical' then 3 when 'warning' then 2 else 1 end`;
-const VERDICT_RANK = `array_position(array['consistent','marginal','inconsistent','silent'], coalesce(st.verdict, 'silent'))`;
+// Worst first when sorted descending: inconsistent, silent (stopped publishing), marginal,
+// consistent, and last the estimators that have never reported.
+const VERDICT_RANK = `case st.verdict when 'inconsistent' then 4 when 'silent' then 3 when 'marginal' then 2 when 'consistent' then 1 else 0 end`;
 const SORTS: Record<FleetQuery['sort'], string> = {
   verdict: VERDICT_RANK,
   unit: 'u.key',
@@ -25,7 +27,7 @@ const SORTS: Record<FleetQuery['sort'], string> = {
   site: 's.key',
   design: 'd.key',
   lastSampleAt: 'st.last_received_at',
-  nisRatio: `(st."window"->'nis'->>'average')::float8 / e.measurement_dim`,
+  nisRatio: 'st.nis_ratio',
   openAlerts: 'coalesce(al.live, 0)',
 };
 
@@ -106,10 +108,8 @@ export class FleetRepository {
 
   /** Every estimator's window p-value (for fleet-wide false discovery control). */
   async pValues(): Promise<{ id: number; pValue: number }[]> {
-    const rows = await this.knex('estimator_status')
-      .whereRaw(`jsonb_exists("window", 'pValue')`)
-      .select('estimator_id', this.knex.raw(`("window"->>'pValue')::float8 as p`));
-    return rows.filter((r) => r.p !== null && Number.isFinite(Number(r.p))).map((r) => ({ id: Number(r.estimator_id), pValue: Number(r.p) }));
+    const rows = await this.knex('estimator_status').whereNotNull('p_value').select('estimator_id', 'p_value');
+    return rows.map((r) => ({ id: Number(r.estimator_id), pValue: Number(r.p_value) }));
   }
 
   /** Mean NIS / m per estimator and time bucket, from the minute rollups. */

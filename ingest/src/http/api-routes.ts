@@ -2,6 +2,7 @@
 import type { Knex } from 'knex';
 import { fleetAdminRoutes } from '../admin/fleet-admin-routes';
 import { FleetAdminRepository } from '../admin/fleet-admin-repository';
+import { designsRoutes } from '../admin/designs-routes';
 import { AlertsRepository } from '../alerts/alerts-repository';
 import { alertsRoutes } from '../alerts/alerts-routes';
 import { AlertsService } from '../alerts/alerts-service';
@@ -41,6 +42,7 @@ export function apiRoutes(knex: Knex, events: ServiceEvents, clock: Clock, setti
     ...alertsRoutes(alertsRepo, new AlertsService(knex, alertsRepo, events, clock)),
     ...quarantineRoutes(new QuarantineRepository(knex), clock),
     ...fleetAdminRoutes(new FleetAdminRepository(knex)),
+    ...designsRoutes(knex),
     ...usersRoutes(new UsersRepository(knex)),
     ...eventsRoutes(events),
   ];

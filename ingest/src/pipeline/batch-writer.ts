@@ -47,6 +47,9 @@ export interface StatusRow {
   lastSeq: number | null;
   samplesAdded: number;
   window: unknown;
+  /** The window tests' combined p-value (fleet screening) and mean NIS / m (sorting), when known. */
+  pValue: number | null;
+  nisRatio: number | null;
 }
 
 export interface CheckpointRow {
@@ -255,7 +258,9 @@ export class BatchWriter {
   }
 }
 
-async function insertSamples(client: PoolClient, rows: SampleRow[]): Promise<void> {
+async function insertSamples(client: PoolClient, unsorted: SampleRow[]): Promise<void> {
+  // In key order: neighbouring index entries land on the same pages.
+  const rows = unsorted.slice().sort((a, b) => a.estimatorId - b.estimatorId || a.seq - b.seq);
   const n = rows.length;
   const e = new Array<number>(n);
   const t = new Array<number>(n);
@@ -280,7 +285,7 @@ async function insertSamples(client: PoolClient, rows: SampleRow[]): Promise<voi
     name: 'wc_insert_samples',
     text: `insert into innovation_samples (estimator_id, t, seq, nis, cusum_up, cusum_down, nu, w)
            select e, to_timestamp(t), seq, nis, up, down, nu, w
-             from unnest($1::int[], $2::float8[], $3::bigint[], $4::real[], $5::real[], $6::real[], $7::bytea[], $8::bytea[])
+             from unnest($1::int[], $2::float8[], $3::int[], $4::real[], $5::real[], $6::real[], $7::bytea[], $8::bytea[])
                as u(e, t, seq, nis, up, down, nu, w)
            on conflict do nothing`,
     values: [e, t, seq, nis, up, down, nu, w],
@@ -363,10 +368,10 @@ async function insertQuarantine(client: PoolClient, rows: QuarantineRow[]): Prom
 async function upsertStatus(client: PoolClient, rows: StatusRow[]): Promise<void> {
   await client.query({
     name: 'wc_upsert_status',
-    text: `insert into estimator_status as s (estimator_id, verdict, verdict_since, last_sample_at, last_received_at, last_seq, samples_total, "window", updated_at)
-           select e, v, to_timestamp(since), to_timestamp(ls), to_timestamp(lr), seq, n, w, now()
-             from unnest($1::int[], $2::text[], $3::float8[], $4::float8[], $5::float8[], $6::bigint[], $7::bigint[], $8::jsonb[])
-               as u(e, v, since, ls, lr, seq, n, w)
+    text: `insert into estimator_status as s (estimator_id, verdict, verdict_since, last_sample_at, last_received_at, last_seq, samples_total, "window", p_value, nis_ratio, updated_at)
+           select e, v, to_timestamp(since), to_timestamp(ls), to_timestamp(lr), seq, n, w, p, r, now()
+             from unnest($1::int[], $2::text[], $3::float8[], $4::float8[], $5::float8[], $6::bigint[], $7::bigint[], $8::jsonb[], $9::float8[], $10::real[])
+               as u(e, v, since, ls, lr, seq, n, w, p, r)
            on conflict (estimator_id) do update set
              verdict = excluded.verdict,
              verdict_since = excluded.verdict_since,
@@ -375,6 +380,8 @@ async function upsertStatus(client: PoolClient, rows: StatusRow[]): Promise<void
              last_seq = coalesce(excluded.last_seq, s.last_seq),
              samples_total = s.samples_total + excluded.samples_total,
              "window" = excluded."window",
+             p_value = excluded.p_value,
+             nis_ratio = excluded.nis_ratio,
              updated_at = now()`,
     values: [
       rows.map((r) => r.estimatorId),
@@ -385,6 +392,8 @@ async function upsertStatus(client: PoolClient, rows: StatusRow[]): Promise<void
       rows.map((r) => r.lastSeq),
       rows.map((r) => r.samplesAdded),
       rows.map((r) => JSON.stringify(r.window ?? {})),
+      rows.map((r) => r.pValue),
+      rows.map((r) => r.nisRatio),
     ],
   });
 }

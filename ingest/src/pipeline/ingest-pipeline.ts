@@ -285,6 +285,8 @@ export class IngestPipeline {
       lastSeq: stream.lastSeq,
       samplesAdded: stream.unsavedSamples,
       window: summarizeReport(report),
+      pValue: report.checks && Number.isFinite(report.pValue) ? report.pValue : null,
+      nisRatio: report.checks?.nis.ready && report.m ? report.checks.nis.average / report.m : null,
     };
     stream.unsavedSamples = 0;
     const conditions = conditionsFromReport(report, {
@@ -311,7 +313,7 @@ export class IngestPipeline {
         rule: 'silence',
         severity: RULE_SEVERITY.silence,
         summary: `no sample for ${Math.round((now - (stream.lastReceivedAtMs ?? now)) / 1000)} s (expected one every ${stream.info.expectedIntervalMs / 1000} s)`,
-        evidence: { lastReceivedAt: stream.lastReceivedAtMs, expectedIntervalMs: stream.info.expectedIntervalMs, factor: this.settings.silenceFactor },
+        evidence: { lastReceivedAt: stream.lastReceivedAtMs === null ? null : new Date(stream.lastReceivedAtMs).toISOString(), expectedIntervalMs: stream.info.expectedIntervalMs, factor: this.settings.silenceFactor },
       });
     }
     const evaluated = new Set<RuleName>([...ESTIMATOR_RULES, 'silence']);

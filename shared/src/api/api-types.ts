@@ -134,6 +134,27 @@ export interface FleetHeatmap {
   rows: { estimatorId: number; label: string; verdict: EstimatorVerdict; values: (number | null)[] }[];
 }
 
+/** GET /api/estimators?unit=&site=&q= (administration lists) */
+export interface EstimatorListItem {
+  id: number;
+  key: string;
+  unitKey: string;
+  siteKey: string;
+  designKey: string;
+  revision: number;
+  measurementDim: number;
+  expectedIntervalMs: number;
+}
+
+/** GET /api/designs: every design with its revisions. */
+export interface DesignSummary {
+  id: number;
+  key: string;
+  name: string;
+  description: string;
+  revisions: { id: number; revision: number; status: 'draft' | 'released' | 'retired'; stateDim: number; measurementDim: number; estimators: number; createdAt: string }[];
+}
+
 export interface DesignRevisionRef {
   id: number;
   designKey: string;

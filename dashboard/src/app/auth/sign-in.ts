@@ -1,11 +1,11 @@
 import { HttpErrorResponse } from '@angular/common/http';
-import { ChangeDetectionStrategy, Component, inject, signal } from '@angular/core';
+import { ChangeDetectionStrategy, Component, computed, inject, signal } from '@angular/core';
 import { FormBuilder, ReactiveFormsModule, Validators } from '@angular/forms';
 import { MatButtonModule } from '@angular/material/button';
 import { MatFormFieldModule } from '@angular/material/form-field';
 import { MatInputModule } from '@angular/material/input';
 import { MatProgressBarModule } from '@angular/material/progress-bar';
-import { Router } from '@angular/router';
+import { ActivatedRoute, Router } from '@angular/router';
 import { WhitecapMark } from '../shell/whitecap-mark';
 import { Session } from './session';
 
@@ -21,6 +21,11 @@ export function signInErrorMessage(err: unknown): string {
   return 'Sign-in failed. Try again, or ask your administrator.';
 }
 
+/** Only paths inside the app are followed after sign-in; anything else lands on the fleet. */
+export function safeReturnUrl(url: string | null): string {
+  return url && url.startsWith('/') && !url.startsWith('//') && !url.startsWith('/sign-in') ? url : '/fleet';
+}
+
 @Component({
   selector: 'wc-sign-in',
   imports: [ReactiveFormsModule, MatButtonModule, MatFormFieldModule, MatInputModule, MatProgressBarModule, WhitecapMark],
@@ -31,6 +36,9 @@ export function signInErrorMessage(err: unknown): string {
 export class SignIn {
   private readonly session = inject(Session);
   private readonly router = inject(Router);
+  private readonly route = inject(ActivatedRoute);
+  /** Set when the session ran out rather than being ended by the user. */
+  protected readonly expired = computed(() => this.session.ended() === 'expired');
 
   protected readonly form = inject(FormBuilder).nonNullable.group({
     email: ['', [Validators.required, Validators.email]],
@@ -49,7 +57,7 @@ export class SignIn {
     try {
       const { email, password } = this.form.getRawValue();
       await this.session.signIn(email, password);
-      await this.router.navigateByUrl('/');
+      await this.router.navigateByUrl(safeReturnUrl(this.route.snapshot.queryParamMap.get('returnUrl')));
     } catch (err) {
       this.error.set(signInErrorMessage(err));
     } finally {
