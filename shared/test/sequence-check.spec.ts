@@ -69,3 +69,19 @@ describe('sequence check', () => {
     }
   });
 });
+
+describe('EstimatorMonitor and a unit whose counter starts again', () => {
+  it('takes samples with numbers it has seen but later times as a restart, and a resend (same time) as a duplicate', () => {
+    // Imported here to keep this file's own tests on SequenceCheck alone above.
+    // eslint-disable-next-line @typescript-eslint/no-require-imports
+    const { EstimatorMonitor } = require('../src/monitor/estimator-monitor') as typeof import('../src/monitor/estimator-monitor');
+    const monitor = new EstimatorMonitor({ m: 1 });
+    const sample = (seq: number, t: number) => ({ seq, t, nu: [0.1], S: [[1]] });
+    for (let seq = 1; seq <= 300; seq++) expect(monitor.ingest(sample(seq, seq * 1000))).not.toBe('duplicate');
+    expect(monitor.ingest(sample(300, 300_000))).toBe('duplicate'); // a resend
+    expect(monitor.ingest(sample(1, 400_000))).toBe('restart'); // the unit restarted
+    expect(monitor.ingest(sample(2, 401_000))).toBe('in_order');
+    expect(monitor.ingest(sample(2, 401_000))).toBe('duplicate');
+    expect(monitor.report().checks?.sequence.restarts).toBe(1);
+  });
+});

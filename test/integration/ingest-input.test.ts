@@ -110,6 +110,14 @@ describe('ingest: bad input is quarantined, good input is stored', () => {
     expect(Number(rows[0].count)).toBe(1);
   });
 
+  it('stores the samples of a unit whose counter started again (same numbers, later times)', async () => {
+    const restarted = { v: 1, samples: [1, 2, 3].map((n) => ({ seq: n, t: now + 100_000 + n, nu: [0.05], S: [[0.04]] })) };
+    await publishAcked(unit, topic, JSON.stringify(restarted));
+    validSent += 3;
+    const rows = await knex('innovation_samples').where('seq', '<=', 3).count<{ count: number }[]>('* as count');
+    expect(Number(rows[0].count)).toBe(6); // the first 1…3 and the new 1…3
+  });
+
   it('refuses a unit publishing on another unit\'s topic and stores nothing of it', async () => {
     const intruder = await connectUnit(service.mqttPort, 'cabinet-02', demoDeviceSecret('cabinet-02'));
     const before = await knex('innovation_samples').count<{ count: number }[]>('* as count');

@@ -235,7 +235,7 @@ export class IngestPipeline {
         verdict,
       });
       stream.lastSampleAtMs = Math.max(stream.lastSampleAtMs ?? 0, tMs);
-      stream.lastSeq = Math.max(stream.lastSeq ?? 0, raw.seq);
+      stream.lastSeq = result.outcome === 'restart' ? raw.seq : Math.max(stream.lastSeq ?? 0, raw.seq);
     }
     stream.lastReceivedAtMs = now;
     stream.unsavedSamples += samples.length;

@@ -148,6 +148,28 @@ export class SequenceCheck {
     return 'too_old';
   }
 
+  /** The highest sequence number seen (−1 before any). */
+  get highestSeq(): number {
+    return this.highest;
+  }
+
+  /**
+   * The unit's counter started again at `seq` (the caller knows it from the sample's
+   * time: a number at or below the highest seen, stamped later than anything seen, is a
+   * new sample and not a resend). The window starts again from there.
+   */
+  restart(seq: number): SequenceOutcome {
+    this.observed++;
+    this.bitmap.fill(0);
+    this.highest = seq;
+    this.setBit(seq);
+    this.restarts++;
+    this.accepted++;
+    this.pendingRestartSeq = -2;
+    this.event('restart', seq);
+    return 'restart';
+  }
+
   severity(): Severity {
     return this.lastEventObserved >= 0 && this.observed - this.lastEventObserved < this.config.recentSamples ? 1 : 0;
   }

@@ -316,7 +316,12 @@ export class EstimatorMonitor {
       if (!isFinite(nees)) throw new InnovationSampleError('not_finite', 'e', `the NEES of this sample overflows (${nees})`);
     }
     this.sampleNis = nis;
-    const outcome = checks.sequence.observe(sample.seq);
+    // A number at or below the highest seen but stamped later than the last sample is a
+    // counter that started again (a unit restarted), not a resend: a resend carries its
+    // original time.
+    const restarted =
+      sample.t !== undefined && this.lastT !== undefined && sample.t > this.lastT && sample.seq <= checks.sequence.highestSeq;
+    const outcome = restarted ? checks.sequence.restart(sample.seq) : checks.sequence.observe(sample.seq);
     if (!isAccepted(outcome)) return outcome;
     if (sample.n > 0 && this.nees === null) this.initializeNees(sample.n);
     checks.nis.push(nis);
