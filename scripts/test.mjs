@@ -30,7 +30,7 @@ function ensureChromium() {
 }
 
 function typecheck() {
-  for (const project of ['shared/tsconfig.json', 'ingest/tsconfig.json', 'dashboard/tsconfig.app.json', 'test/tsconfig.json']) {
+  for (const project of ['shared/tsconfig.json', 'ingest/tsconfig.json', 'dashboard/tsconfig.app.json', 'test/tsconfig.json', 'ingest/bench/tsconfig.json']) {
     if (!fs.existsSync(path.join(root, project))) continue;
     const r = spawnSync(bin('tsc'), ['-p', project, '--noEmit'], { cwd: root, stdio: 'inherit' });
     if (r.status !== 0) throw new Error(`type errors in ${project}`);

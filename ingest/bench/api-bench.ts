@@ -8,7 +8,6 @@ import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import knexFactory from 'knex';
-// @ts-expect-error: plain ES module of the project's scripts (no types)
 import { LocalPostgres, freePort } from '../../scripts/lib/postgres.mjs';
 import { createRequire } from 'node:module';
 import { signIn } from '../../test/support/api';
@@ -103,6 +102,12 @@ async function main(): Promise<void> {
               decode(lpad(to_hex((random() * 2147483647)::int), 8, '0') || lpad(to_hex((random() * 2147483647)::int), 8, '0'), 'hex')
          from generate_series(1, ?) g`,
       [target.id, now - 86_400_000, SERIES_SAMPLES],
+    );
+    // The minute rollups the pipeline keeps beside the samples.
+    await knex.raw(
+      `insert into estimator_rollups_minute (estimator_id, minute, samples, nis_sum, nis_min, nis_max, exceedances, cusum_up_max, cusum_down_max, verdict)
+       select estimator_id, date_trunc('minute', t), count(*), sum(nis), min(nis), max(nis), count(*) filter (where nis > 15.2), max(cusum_up), max(cusum_down), 'consistent'
+         from innovation_samples group by 1, 2`,
     );
     await knex.raw('analyze');
     await knex.destroy();

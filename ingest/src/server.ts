@@ -155,7 +155,11 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
     timers.push(t);
   };
   every(config.ingest.sweepEveryMs, 'sweep', () => pipeline.sweep());
-  every(config.ingest.checkpointEveryMs, 'checkpoint', () => pipeline.checkpoint());
+  // The fleet's checkpoints in one-second slices, each estimator about once per checkpoint period.
+  const checkpointSliceMs = Math.min(1000, config.ingest.checkpointEveryMs);
+  every(checkpointSliceMs, 'checkpoint', () =>
+    pipeline.checkpoint(Math.max(1, Math.ceil((pipeline.streamCount() * checkpointSliceMs) / config.ingest.checkpointEveryMs))),
+  );
   every(3_600_000, 'retention', () => dropExpired());
   every(1000, 'queue gauge', async () => metrics.queueDepth.set(writer.pendingSamples()));
   const dropExpired = async () => {

@@ -95,6 +95,11 @@ describe('API resources', () => {
     expect(body.histogram.counts[0].reduce((a, b) => a + b, 0)).toBe(3600);
     expect(Math.abs(body.bias.mean[0])).toBeLessThan(body.bias.bound);
     expect(body.autocorrelation.values[0]).toHaveLength(10);
+    // A long range is drawn from the minute rollups: whole-minute buckets, every sample counted once.
+    const day = await api<EstimatorSeries>(service.url, viewer, `/estimators/${id}/series?from=${new Date(Date.now() - 24 * 3_600_000).toISOString()}&to=${to}&points=2000`);
+    expect(day.body.bucketMs % 60_000).toBe(0);
+    expect(day.body.points.reduce((a, p) => a + p.count, 0)).toBe(3600);
+    expect(Math.max(...day.body.points.map((p) => p.nisMax))).toBe(Math.max(...body.points.map((p) => p.nisMax)));
   });
 
   it('lists alerts and shows one with its evidence; a responder acknowledges, annotates and resolves it with an audit trail', async () => {

@@ -11,6 +11,18 @@ export interface SeriesBucket {
   cusum_down: number;
 }
 
+function toBucket(r: Record<string, unknown>): SeriesBucket {
+  return {
+    b: Number(r.b),
+    count: Number(r.count),
+    nis_min: Number(r.nis_min),
+    nis_max: Number(r.nis_max),
+    nis_mean: Number(r.nis_mean),
+    cusum_up: Number(r.cusum_up),
+    cusum_down: Number(r.cusum_down),
+  };
+}
+
 export class EstimatorsRepository {
   constructor(private readonly knex: Knex) {}
 
@@ -65,15 +77,27 @@ export class EstimatorsRepository {
         this.knex.raw('max(cusum_up) as cusum_up'),
         this.knex.raw('max(cusum_down) as cusum_down'),
       );
-    return rows.map((r) => ({
-      b: Number(r.b),
-      count: Number(r.count),
-      nis_min: Number(r.nis_min),
-      nis_max: Number(r.nis_max),
-      nis_mean: Number(r.nis_mean),
-      cusum_up: Number(r.cusum_up),
-      cusum_down: Number(r.cusum_down),
-    }));
+    return rows.map(toBucket);
+  }
+
+  /** The same from the minute rollups, for buckets of whole minutes (long ranges). */
+  async rollupBuckets(id: number, fromMs: number, toMs: number, bucketMs: number): Promise<SeriesBucket[]> {
+    const rows = await this.knex('estimator_rollups_minute')
+      .where('estimator_id', id)
+      .where('minute', '>=', new Date(fromMs))
+      .where('minute', '<', new Date(toMs))
+      .groupBy('b')
+      .orderBy('b')
+      .select(
+        this.knex.raw('floor((extract(epoch from minute) * 1000 - ?) / ?)::int as b', [fromMs, bucketMs]),
+        this.knex.raw('sum(samples)::int as count'),
+        this.knex.raw('min(nis_min) as nis_min'),
+        this.knex.raw('max(nis_max) as nis_max'),
+        this.knex.raw('sum(nis_sum) / nullif(sum(samples), 0) as nis_mean'),
+        this.knex.raw('max(cusum_up_max) as cusum_up'),
+        this.knex.raw('max(cusum_down_max) as cusum_down'),
+      );
+    return rows.map(toBucket);
   }
 
   /** The whitened innovations of the latest `limit` samples in the range, oldest first. */

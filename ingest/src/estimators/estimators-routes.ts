@@ -61,7 +61,7 @@ export function estimatorsRoutes(repo: EstimatorsRepository, series: SeriesServi
       path: '/estimators/:id/series',
       ability: 'read',
       tag: 'estimators',
-      summary: 'NIS, CUSUM, whitened-innovation histogram, autocorrelation and bias over a time range, down-sampled to at most `points` buckets',
+      summary: 'NIS and CUSUM over a time range, down-sampled to at most `points` buckets (extremes kept); histogram, autocorrelation and bias of the whitened innovations of the latest 8,000 samples in the range',
       params: idParam,
       query: seriesQuery,
       handler: async ({ params, query }): Promise<EstimatorSeries> => {

@@ -14,6 +14,9 @@ export interface SeriesSettings {
   statsSamples: number;
 }
 
+/** Ranges this long or longer are drawn from the minute rollups. */
+const ROLLUP_RANGE_MS = 6 * 3_600_000;
+
 const HISTOGRAM_EDGES = Array.from({ length: 33 }, (_, i) => -4 + i * 0.25);
 
 export class SeriesService {
@@ -23,9 +26,13 @@ export class SeriesService {
   ) {}
 
   async series(id: number, m: number, fromMs: number, toMs: number, points: number): Promise<EstimatorSeries> {
-    const bucketMs = Math.max(1000, Math.ceil((toMs - fromMs) / points));
+    let bucketMs = Math.max(1000, Math.ceil((toMs - fromMs) / points));
+    // Long ranges read the minute rollups (whole-minute buckets, extremes kept) instead of
+    // every sample: a day is 1,440 rollup rows rather than 86,400 samples.
+    const fromRollups = toMs - fromMs >= ROLLUP_RANGE_MS;
+    if (fromRollups) bucketMs = Math.ceil(bucketMs / 60_000) * 60_000;
     const [buckets, whitened] = await Promise.all([
-      this.repo.buckets(id, fromMs, toMs, bucketMs),
+      fromRollups ? this.repo.rollupBuckets(id, fromMs, toMs, bucketMs) : this.repo.buckets(id, fromMs, toMs, bucketMs),
       this.repo.whitened(id, fromMs, toMs, this.settings.statsSamples),
     ]);
     const { alpha, windowLength: N, arl0, lags } = this.settings;

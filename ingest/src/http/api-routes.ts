@@ -35,7 +35,7 @@ export function apiRoutes(knex: Knex, events: ServiceEvents, clock: Clock, setti
     ...fleetRoutes(new FleetRepository(knex), clock),
     ...estimatorsRoutes(
       estimators,
-      new SeriesService(estimators, { ...settings, statsSamples: 20_000 }),
+      new SeriesService(estimators, { ...settings, statsSamples: 8_000 }),
       clock,
       { windowLength: settings.windowLength, alpha: settings.alpha, alphaMarginal: settings.alphaMarginal, lags: settings.lags },
     ),

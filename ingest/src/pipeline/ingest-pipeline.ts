@@ -35,6 +35,8 @@ export interface PipelineSettings {
   alertHoldMs: number;
   /** An estimator is silent after expected interval × this factor without a sample (default 10). */
   silenceFactor: number;
+  /** Silence is not judged while more samples than this wait for the database (default 5000). */
+  silenceJudgedBelowQueue: number;
   /** Quarantined payloads per unit in 5 minutes that raise the quarantine-rate alert (default 20). */
   quarantineAlertCount: number;
   /** The rules look at an estimator at least every this many samples (default 10), besides every statusEveryMs. */
@@ -54,6 +56,7 @@ export const DEFAULT_PIPELINE_SETTINGS: PipelineSettings = {
   alertHoldMs: 60_000,
   silenceFactor: 10,
   quarantineAlertCount: 20,
+  silenceJudgedBelowQueue: 5000,
   alertPValue: 1e-6,
   rulesEverySamples: 10,
   // CUSUM designed for an in-control ARL of 10 million samples: at 1 sample/s, one false
@@ -147,7 +150,6 @@ export class IngestPipeline {
   }
 
   async handle(unitKey: string, estimatorKey: string, topic: string, payload: Buffer): Promise<void> {
-    const started = performance.now();
     const now = this.deps.clock.now();
     const m = this.deps.metrics;
     m.messagesIn.inc();
@@ -186,6 +188,7 @@ export class IngestPipeline {
     m.samplesIn.inc(raws.length);
 
     const stream = this.streams.get(info.id) ?? (await this.loadStream(info));
+    const checksStarted = performance.now();
     // Everything from here to the write is synchronous: samples of one estimator are
     // checked in the order their messages arrived.
     const samples: SampleRow[] = [];
@@ -259,7 +262,7 @@ export class IngestPipeline {
       ({ status, alerts } = this.refresh(stream, now));
     }
     const quarantine = this.quarantineRows(unitKey, estimatorKey, info.id, topic, payload, rejected, now);
-    m.checkSeconds.observe((performance.now() - started) / 1000);
+    m.checkSeconds.observe((performance.now() - checksStarted) / 1000);
 
     await this.deps.writer.write({ samples, quarantine, status, alerts });
     m.samplesStored.inc(samples.length);
@@ -489,13 +492,16 @@ export class IngestPipeline {
    */
   async sweep(): Promise<void> {
     const now = this.deps.clock.now();
+    // While the service itself is behind (its writes queue up), quiet streams may be
+    // waiting on us rather than silent: silence is judged only when we keep up.
+    const behind = this.deps.writer.pendingSamples() > this.settings.silenceJudgedBelowQueue;
     const status: StatusRow[] = [];
     const alerts: AlertOp[] = [];
     const verdictEvents: { stream: EstimatorStream; previous: VerdictWord }[] = [];
     for (const stream of this.streams.values()) {
       if (stream.lastReceivedAtMs === null) continue;
       const silentAfter = stream.info.expectedIntervalMs * this.settings.silenceFactor;
-      const silent = now - stream.lastReceivedAtMs > silentAfter;
+      const silent = !behind && now - stream.lastReceivedAtMs > silentAfter;
       const turnedSilent = silent && stream.verdict !== 'silent';
       if (turnedSilent) {
         verdictEvents.push({ stream, previous: stream.verdict });
@@ -526,18 +532,28 @@ export class IngestPipeline {
     this.emitAlerts(alerts);
   }
 
-  /** Checkpoints of the estimators whose checks changed since the last call. */
-  async checkpoint(): Promise<number> {
+  /**
+   * Checkpoints of the estimators whose checks changed since their last checkpoint: at
+   * most `limit` per call, taking up where the last call stopped, so the fleet is saved
+   * a slice at a time instead of in one statement that every sample waits behind.
+   */
+  async checkpoint(limit = Infinity): Promise<number> {
+    const ids = [...this.streams.keys()];
     const rows = [];
-    for (const stream of this.streams.values()) {
+    let k = 0;
+    for (; k < ids.length && rows.length < limit; k++) {
+      const stream = this.streams.get(ids[(this.checkpointCursor + k) % ids.length])!;
       if (!stream.checkpointDirty) continue;
       stream.checkpointDirty = false;
       const state = stream.monitor.serialize();
       rows.push({ estimatorId: stream.info.id, state, samplesSeen: state.samples });
     }
+    if (ids.length > 0) this.checkpointCursor = (this.checkpointCursor + k) % ids.length;
     if (rows.length > 0) await this.deps.writer.write({ checkpoints: rows });
     return rows.length;
   }
+
+  private checkpointCursor = 0;
 }
 
 /** What the fleet screens need of a report, small enough to store per estimator. */
