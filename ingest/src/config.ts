@@ -51,6 +51,7 @@ const schema = z.object({
   WHITECAP_ALERT_HOLD_MS: z.coerce.number({ error: 'must be a number' }).int('must be a whole number').min(0, 'must be 0 or more').default(60_000),
   WHITECAP_STATUS_EVERY_MS: positiveInt.default(5000),
   WHITECAP_SILENCE_FACTOR: z.coerce.number({ error: 'must be a number' }).min(1, 'must be at least 1').default(10),
+  WHITECAP_SILENCE_FLOOR_MS: z.coerce.number({ error: 'must be a number' }).int('must be a whole number').min(0, 'must be 0 or more').default(10_000),
   WHITECAP_SWEEP_EVERY_MS: positiveInt.default(2000),
   WHITECAP_CHECKPOINT_EVERY_MS: positiveInt.default(30_000),
   WHITECAP_WINDOW_LENGTH: positiveInt.min(10, 'must be at least 10').default(100),
@@ -95,6 +96,8 @@ export interface Config {
     alertHoldMs: number;
     statusEveryMs: number;
     silenceFactor: number;
+    /** Never silent before this long without a sample. */
+    silenceFloorMs: number;
     sweepEveryMs: number;
     checkpointEveryMs: number;
     /** The checks: window length N, significance of 'inconsistent' and 'marginal', CUSUM in-control ARL. */
@@ -182,6 +185,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
       alertHoldMs: v.WHITECAP_ALERT_HOLD_MS,
       statusEveryMs: v.WHITECAP_STATUS_EVERY_MS,
       silenceFactor: v.WHITECAP_SILENCE_FACTOR,
+      silenceFloorMs: v.WHITECAP_SILENCE_FLOOR_MS,
       sweepEveryMs: v.WHITECAP_SWEEP_EVERY_MS,
       checkpointEveryMs: v.WHITECAP_CHECKPOINT_EVERY_MS,
       windowLength: v.WHITECAP_WINDOW_LENGTH,

@@ -88,6 +88,7 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
       alertHoldMs: config.ingest.alertHoldMs,
       statusEveryMs: config.ingest.statusEveryMs,
       silenceFactor: config.ingest.silenceFactor,
+      silenceFloorMs: config.ingest.silenceFloorMs,
       maxAgeMs: config.ingest.retentionDays * 86_400_000,
       alertPValue: config.ingest.alertPValue,
       monitor: {

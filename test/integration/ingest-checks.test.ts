@@ -71,6 +71,7 @@ describe('ingest: checks and alerts on simulated estimators', () => {
       WHITECAP_SWEEP_EVERY_MS: '100',
       WHITECAP_ALERT_HOLD_MS: '500',
       WHITECAP_SILENCE_FACTOR: '2',
+      WHITECAP_SILENCE_FLOOR_MS: '0',
     });
     url = `mqtt://127.0.0.1:${service.mqttPort}`;
     knex = knexFactory({ client: 'pg', connection: db.url });

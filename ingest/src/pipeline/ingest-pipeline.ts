@@ -35,6 +35,8 @@ export interface PipelineSettings {
   alertHoldMs: number;
   /** An estimator is silent after expected interval × this factor without a sample (default 10). */
   silenceFactor: number;
+  /** Never silent before this long without a sample, however fast the estimator runs (default 10 s). */
+  silenceFloorMs: number;
   /** Silence is not judged while more samples than this wait for the database (default 5000). */
   silenceJudgedBelowQueue: number;
   /** Quarantined payloads per unit in 5 minutes that raise the quarantine-rate alert (default 20). */
@@ -56,6 +58,7 @@ export const DEFAULT_PIPELINE_SETTINGS: PipelineSettings = {
   alertHoldMs: 60_000,
   silenceFactor: 10,
   quarantineAlertCount: 20,
+  silenceFloorMs: 10_000,
   silenceJudgedBelowQueue: 5000,
   alertPValue: 1e-6,
   rulesEverySamples: 10,
@@ -500,7 +503,7 @@ export class IngestPipeline {
     const verdictEvents: { stream: EstimatorStream; previous: VerdictWord }[] = [];
     for (const stream of this.streams.values()) {
       if (stream.lastReceivedAtMs === null) continue;
-      const silentAfter = stream.info.expectedIntervalMs * this.settings.silenceFactor;
+      const silentAfter = Math.max(stream.info.expectedIntervalMs * this.settings.silenceFactor, this.settings.silenceFloorMs);
       const silent = !behind && now - stream.lastReceivedAtMs > silentAfter;
       const turnedSilent = silent && stream.verdict !== 'silent';
       if (turnedSilent) {
