@@ -13,6 +13,7 @@ import {
   runTs,
   startChild,
   tsNode,
+  SERVICE_NODE_FLAGS,
   waitForHttp,
 } from './lib/project.mjs';
 
@@ -82,7 +83,7 @@ async function main() {
   runTs('ingest/cli/seed.ts', [], serviceEnv);
   ensureDashboardBuilt(log);
 
-  const service = startChild(...tsNode('ingest/main.ts'), serviceEnv);
+  const service = startChild(...tsNode('ingest/main.ts', [], SERVICE_NODE_FLAGS), serviceEnv);
   children.push(service);
   service.on('exit', (code, signal) => {
     if (!stopping) {

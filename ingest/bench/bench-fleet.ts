@@ -52,7 +52,7 @@ export function schedule(rate: number, rampS: number): { due(s: number): number;
 
 export type ToWorker =
   | { type: 'config'; config: WorkerConfig }
-  | { type: 'go'; startAtMs: number; faultAtMs: number }
+  | { type: 'go'; startAtMs: number; faultAtMs: number; steadyAtMs: number }
   | { type: 'stop'; drainMs: number };
 
 export interface WorkerCounts {
@@ -94,6 +94,8 @@ export type FromWorker =
       counts: WorkerCounts;
       drained: boolean;
       publishToAck: HistogramData;
+      /** The same, for messages published after the warm-up (the sustained-rate window). */
+      steadyPublishToAck: HistogramData;
       sampleToAck: HistogramData;
       loopDelay: { p50Ms: number; p99Ms: number; maxMs: number };
       acked: AckedRanges[];

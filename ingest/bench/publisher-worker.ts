@@ -45,6 +45,8 @@ const counts: WorkerCounts = {
   errors: 0,
 };
 const publishToAck = new LatencyHistogram();
+const steadyPublishToAck = new LatencyHistogram();
+let steadyAtMs = Number.POSITIVE_INFINITY;
 /** The last second's PUBACK latencies (reset with each progress report). */
 let recent = new LatencyHistogram();
 const sampleToAck = new LatencyHistogram();
@@ -102,6 +104,7 @@ function publish(u: Unit, samples: SimulatedSample[]): void {
   counts.publishedSamples += n;
   u.inFlight += 1;
   const began = performance.now();
+  const steady = Date.now() >= steadyAtMs;
   u.client!.publish(u.topic, payload, { qos: 1 }, (err) => {
     u.inFlight -= 1;
     if (err) {
@@ -111,6 +114,7 @@ function publish(u: Unit, samples: SimulatedSample[]): void {
     } else {
       const ms = performance.now() - began;
       publishToAck.record(ms);
+      if (steady) steadyPublishToAck.record(ms);
       recent.record(ms);
       sampleToAck.record(Date.now() - oldestT);
       counts.ackedMessages += 1;
@@ -272,6 +276,7 @@ async function stop(drainMs: number): Promise<void> {
     counts: { ...counts, inFlightMessages: units.reduce((a, u) => a + u.inFlight, 0) },
     drained,
     publishToAck: publishToAck.toJSON(),
+    steadyPublishToAck: steadyPublishToAck.toJSON(),
     sampleToAck: sampleToAck.toJSON(),
     loopDelay: { p50Ms: loop.percentile(50) / 1e6, p99Ms: loop.percentile(99) / 1e6, maxMs: loop.max / 1e6 },
     acked: ackedRanges(),
@@ -287,7 +292,10 @@ process.on('message', (m: ToWorker) => {
     process.exit(1);
   };
   if (m.type === 'config') start(m.config).catch(fail);
-  else if (m.type === 'go') go(m.startAtMs, m.faultAtMs);
+  else if (m.type === 'go') {
+    steadyAtMs = m.steadyAtMs;
+    go(m.startAtMs, m.faultAtMs);
+  }
   else if (m.type === 'stop') stop(m.drainMs).catch(fail);
 });
 // The benchmark is gone (Ctrl-C, crash): do not outlive it.

@@ -47,7 +47,7 @@ const schema = z.object({
   WHITECAP_RETENTION_DAYS: positiveInt.default(14),
   WHITECAP_ROLLUP_RETENTION_DAYS: positiveInt.default(400),
   WHITECAP_MAX_QUEUED_SAMPLES: positiveInt.default(50_000),
-  WHITECAP_MAX_BATCH_SAMPLES: positiveInt.default(5000),
+  WHITECAP_MAX_BATCH_SAMPLES: positiveInt.default(2000),
   WHITECAP_ALERT_HOLD_MS: z.coerce.number({ error: 'must be a number' }).int('must be a whole number').min(0, 'must be 0 or more').default(60_000),
   WHITECAP_STATUS_EVERY_MS: positiveInt.default(5000),
   WHITECAP_SILENCE_FACTOR: z.coerce.number({ error: 'must be a number' }).min(1, 'must be at least 1').default(10),

@@ -22,6 +22,17 @@ export function createMetrics() {
       labelNames: ['reason'] as const,
       registers: [registry],
     }),
+    held: new Counter({
+      name: 'whitecap_publish_held_total',
+      help: 'Publishes held back (read no further, acknowledged later) while the write queue was full',
+      registers: [registry],
+    }),
+    messageSeconds: new Histogram({
+      name: 'whitecap_message_commit_seconds',
+      help: 'Time from an MQTT message reaching the broker to its samples being committed (when it is acknowledged)',
+      buckets: [0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1, 2.5, 5, 10],
+      registers: [registry],
+    }),
     batchSamples: new Histogram({
       name: 'whitecap_write_batch_samples',
       help: 'Samples per committed batch',
@@ -32,6 +43,12 @@ export function createMetrics() {
       name: 'whitecap_write_batch_seconds',
       help: 'Time to commit one batch',
       buckets: [0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1, 2.5],
+      registers: [registry],
+    }),
+    commitPhaseSeconds: new Counter({
+      name: 'whitecap_write_phase_seconds_total',
+      help: 'Wall time of the database writer by phase of its transactions (waits for the event loop included)',
+      labelNames: ['phase'] as const,
       registers: [registry],
     }),
     queueDepth: new Gauge({ name: 'whitecap_write_queue_samples', help: 'Samples waiting to be committed', registers: [registry] }),

@@ -20,7 +20,8 @@ import { createApp } from './http/app';
 import type { Logger } from './logger';
 import { createMetrics, type Metrics } from './metrics';
 import type { RuleName } from './pipeline/alert-rules';
-import { BatchWriter, type StatusRow, type VerdictWord } from './pipeline/batch-writer';
+import { BatchWriter } from './pipeline/batch-writer';
+import { CheckpointLoader } from './pipeline/checkpoint-loader';
 import { EstimatorRegistry } from './pipeline/estimator-registry';
 import { IngestPipeline } from './pipeline/ingest-pipeline';
 import { PartitionManager } from './pipeline/partitions';
@@ -35,8 +36,6 @@ export interface RunningService {
   stop(): Promise<void>;
 }
 
-const ms = (d: Date | null | undefined): number | null => (d ? d.getTime() : null);
-
 export async function startService(config: Config, logger: Logger, clock: Clock = systemClock): Promise<RunningService> {
   const knex = createKnex(config.database.url, config.database.poolMax);
   const pool = new pg.Pool({ connectionString: config.database.url, max: 4, connectionTimeoutMillis: 5000 });
@@ -50,12 +49,14 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
     maxBatchSamples: config.ingest.maxBatchSamples,
     // An external broker hands over one message per commit (see external-subscriber.ts): do not linger.
     lingerMs: config.mqtt.external ? 0 : 20,
-    onCommitted: ({ samples, ms: took }) => {
+    onCommitted: ({ samples, ms: took, phases }) => {
       if (samples > 0) metrics.batchSamples.observe(samples);
       metrics.batchSeconds.observe(took / 1000);
+      for (const [phase, ms] of Object.entries(phases)) metrics.commitPhaseSeconds.inc({ phase }, ms / 1000);
     },
   });
   const registry = new EstimatorRegistry(knex);
+  const checkpoints = new CheckpointLoader(knex);
   const pipeline = new IngestPipeline(
     {
       registry,
@@ -64,21 +65,7 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
       logger,
       metrics,
       events,
-      async loadCheckpoint(estimatorId) {
-        const row = await knex('estimator_checkpoints').where({ estimator_id: estimatorId }).first('state');
-        const st = await knex('estimator_status').where({ estimator_id: estimatorId }).first();
-        if (!row && !st) return null;
-        const status: Partial<StatusRow> | null = st
-          ? {
-              verdict: st.verdict as VerdictWord,
-              verdictSinceMs: ms(st.verdict_since) ?? undefined,
-              lastSampleAtMs: ms(st.last_sample_at),
-              lastReceivedAtMs: ms(st.last_received_at),
-              lastSeq: st.last_seq === null ? null : Number(st.last_seq),
-            }
-          : null;
-        return { state: row?.state ?? null, status };
-      },
+      loadCheckpoint: (estimatorId) => checkpoints.load(estimatorId),
       async unitIdOf(unitKey) {
         const u = await knex('units').where({ key: unitKey }).first('id');
         return u ? Number(u.id) : null;
@@ -134,12 +121,11 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
       knex,
       logger,
       handle: (unit, estimator, topic, payload) => pipeline.handle(unit, estimator, topic, payload),
-      overloaded: () => {
-        const depth = writer.pendingSamples();
-        metrics.queueDepth.set(depth);
-        return depth >= config.ingest.maxQueuedSamples;
-      },
+      backlog: () => writer.pendingSamples(),
+      maxBacklog: config.ingest.maxQueuedSamples,
       onRefused: (reason) => metrics.refused.inc({ reason }),
+      onHeld: () => metrics.held.inc(),
+      onTaken: (seconds) => metrics.messageSeconds.observe(seconds),
     });
   }
 

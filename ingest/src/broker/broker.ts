@@ -23,17 +23,29 @@ export interface BrokerOptions {
    * resolves it once the message's samples, or its quarantine record, are committed.
    */
   handle?: (unit: string, estimator: string, topic: string, payload: Buffer) => Promise<void>;
-  /** True when the service should stop taking messages (its write queue is full). */
-  overloaded?: () => boolean;
+  /**
+   * Samples waiting to be committed, and the bound past which the broker holds
+   * messages instead of taking them. A held message is neither refused nor acknowledged:
+   * aedes reads no further from that unit's socket until its messages are done, so TCP
+   * flow control holds the unit's client back and its unacknowledged messages stay with
+   * the unit. Held messages are taken in arrival order once the backlog (plus the
+   * messages being taken, a sample each at least) is below three quarters of the bound.
+   */
+  backlog?: () => number;
+  maxBacklog?: number;
   /** Counts refusals by reason (metrics). */
   onRefused?: (reason: string) => void;
+  /** Counts messages held back while the write queue is full (metrics). */
+  onHeld?: () => void;
+  /** Time from a message's arrival to its commit (or quarantine), in seconds (metrics). */
+  onTaken?: (seconds: number) => void;
 }
 
 export interface EmbeddedBroker {
   readonly aedes: AedesBroker;
   readonly port: number;
   isUp(): boolean;
-  stats(): { clients: number; messagesReceived: number };
+  stats(): { clients: number; messagesReceived: number; held: number };
   close(): Promise<void>;
 }
 
@@ -50,6 +62,15 @@ export async function startBroker(options: BrokerOptions): Promise<EmbeddedBroke
   const { Aedes } = await import('aedes');
   const unitOf = new WeakMap<Client, string>();
   let messagesReceived = 0;
+  // Back-pressure: messages being taken (parsed, checked, waiting for their commit) and
+  // messages held in arrival order until there is room.
+  let taking = 0;
+  const held: (() => void)[] = [];
+  const maxBacklog = options.maxBacklog ?? Number.POSITIVE_INFINITY;
+  const load = () => (options.backlog?.() ?? 0) + taking;
+  const pump = () => {
+    while (held.length > 0 && load() < maxBacklog * 0.75) held.shift()!();
+  };
 
   const aedes = await Aedes.createBroker({
     authenticate(client, username, password, done) {
@@ -82,21 +103,32 @@ export async function startBroker(options: BrokerOptions): Promise<EmbeddedBroke
         options.onRefused?.('foreign_topic');
         return done(new Error('not authorized to publish on this topic'));
       }
-      if (options.overloaded?.()) {
-        // No PUBACK: the connection closes and the unit's client keeps the message to resend.
-        options.onRefused?.('backpressure');
-        return done(new Error('service busy: write queue full'));
-      }
       messagesReceived += 1;
-      if (!options.handle) return done(null);
+      const handle = options.handle;
+      if (!handle) return done(null);
       const payload = Buffer.isBuffer(packet.payload) ? packet.payload : Buffer.from(packet.payload);
-      options.handle(topic.unit, topic.estimator, packet.topic, payload).then(
-        () => done(null),
-        (err: Error) => {
-          logger.error({ err: err.message, topic: packet.topic }, 'message could not be taken');
-          done(err);
-        },
-      );
+      const arrived = performance.now();
+      const take = () => {
+        taking += 1;
+        handle(topic.unit, topic.estimator, packet.topic, payload)
+          .then(
+            () => {
+              options.onTaken?.((performance.now() - arrived) / 1000);
+              done(null);
+            },
+            (err: Error) => {
+              logger.error({ err: err.message, topic: packet.topic }, 'message could not be taken');
+              done(err);
+            },
+          )
+          .finally(() => {
+            taking -= 1;
+            pump();
+          });
+      };
+      if (held.length === 0 && load() < maxBacklog) return take();
+      options.onHeld?.();
+      held.push(take);
     },
     authorizeSubscribe(client, subscription, done) {
       const unit = client ? unitOf.get(client) : undefined;
@@ -125,7 +157,7 @@ export async function startBroker(options: BrokerOptions): Promise<EmbeddedBroke
     aedes,
     port,
     isUp: () => server.listening && !aedes.closed,
-    stats: () => ({ clients: aedes.connectedClients, messagesReceived }),
+    stats: () => ({ clients: aedes.connectedClients, messagesReceived, held: held.length }),
     close: () =>
       new Promise<void>((resolve) => {
         server.close(() => undefined);

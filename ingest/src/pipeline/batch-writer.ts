@@ -17,7 +17,7 @@ export interface SampleRow {
   nis: number;
   cusumUp: number;
   cusumDown: number;
-  /** Innovation and whitened innovation as little-endian float32. */
+  /** Innovation and whitened innovation as little-endian float32 (m values each, so equally long). */
   nu: Buffer;
   w: Buffer;
   /** For the minute rollup: did this sample's NIS exceed its single-sample bound, and the verdict after it. */
@@ -80,6 +80,19 @@ export interface WriteParts {
   alerts?: AlertOp[];
 }
 
+/** Where a commit's time went, in ms (wall time, so waits for the event loop count). */
+export interface CommitPhases {
+  /** Gathering the batch's rows. */
+  prepare: number;
+  /** Connection, partitions, begin. */
+  connect: number;
+  /** The one statement that stores samples, rollups, status, checkpoints, quarantine. */
+  store: number;
+  /** Alert changes, one statement each. */
+  alerts: number;
+  commit: number;
+}
+
 interface Entry {
   parts: WriteParts;
   resolve: () => void;
@@ -88,12 +101,12 @@ interface Entry {
 export interface BatchWriterOptions {
   pool: Pool;
   logger: Logger;
-  /** Samples per transaction at most (default 5000). */
+  /** Samples per transaction at most (default 2000). */
   maxBatchSamples?: number;
   /** How long the first pending item waits for company before a flush (default 20 ms). */
   lingerMs?: number;
   /** Called after each committed batch (for metrics). */
-  onCommitted?: (info: { samples: number; quarantined: number; ms: number }) => void;
+  onCommitted?: (info: { samples: number; quarantined: number; ms: number; phases: CommitPhases }) => void;
 }
 
 const VERDICT_RANK = `array['consistent','marginal','inconsistent','silent']`;
@@ -111,11 +124,12 @@ export class BatchWriter {
   private closed = false;
   private failingSince: number | null = null;
   private idleWaiters: (() => void)[] = [];
+  private client: PoolClient | null = null;
 
   constructor(private readonly options: BatchWriterOptions) {
     this.pool = options.pool;
     this.logger = options.logger;
-    this.maxBatchSamples = options.maxBatchSamples ?? 5000;
+    this.maxBatchSamples = options.maxBatchSamples ?? 2000;
     this.lingerMs = options.lingerMs ?? 20;
   }
 
@@ -151,6 +165,8 @@ export class BatchWriter {
     await this.drain();
     this.closed = true;
     if (this.timer) clearTimeout(this.timer);
+    this.client?.release();
+    this.client = null;
   }
 
   private schedule(now = false): void {
@@ -183,8 +199,9 @@ export class BatchWriter {
         }
         const batch = this.queue.slice(0, n);
         const started = performance.now();
+        let phases: CommitPhases;
         try {
-          await this.commit(batch.map((e) => e.parts));
+          phases = await this.commit(batch.map((e) => e.parts));
         } catch (err) {
           if (this.failingSince === null) {
             this.failingSince = Date.now();
@@ -202,7 +219,7 @@ export class BatchWriter {
         this.queue = this.queue.slice(n);
         this.queuedSamples -= samples;
         const quarantined = batch.reduce((a, e) => a + (e.parts.quarantine?.length ?? 0), 0);
-        this.options.onCommitted?.({ samples, quarantined, ms: performance.now() - started });
+        this.options.onCommitted?.({ samples, quarantined, ms: performance.now() - started, phases });
         for (const e of batch) e.resolve();
         // Let more arrive when the queue is small: batches of one sample help nobody.
         if (this.queue.length > 0 && this.queuedSamples < this.maxBatchSamples / 10) {
@@ -220,7 +237,14 @@ export class BatchWriter {
     }
   }
 
-  private async commit(all: WriteParts[]): Promise<void> {
+  private async commit(all: WriteParts[]): Promise<CommitPhases> {
+    const phases: CommitPhases = { prepare: 0, connect: 0, store: 0, alerts: 0, commit: 0 };
+    let mark = performance.now();
+    const lap = (phase: keyof CommitPhases) => {
+      const now = performance.now();
+      phases[phase] += now - mark;
+      mark = now;
+    };
     const samples = all.flatMap((p) => p.samples ?? []);
     const quarantine = all.flatMap((p) => p.quarantine ?? []);
     const alerts = all.flatMap((p) => p.alerts ?? []);
@@ -235,32 +259,125 @@ export class BatchWriter {
     const checkpoints = new Map<number, CheckpointRow>();
     for (const p of all) for (const c of p.checkpoints ?? []) checkpoints.set(c.estimatorId, c);
 
-    const client = await this.pool.connect();
+    lap('prepare');
+    const client = await this.connection();
     try {
       if (samples.length > 0) await this.partitions.ensure(client, new Set(samples.map((s) => dayStart(s.tMs))));
-      await client.query('begin');
-      if (samples.length > 0) {
-        await insertSamples(client, samples);
-        await upsertRollups(client, samples);
-      }
-      if (quarantine.length > 0) await insertQuarantine(client, quarantine);
-      if (status.size > 0) await upsertStatus(client, [...status.values()]);
-      if (checkpoints.size > 0) await upsertCheckpoints(client, [...checkpoints.values()]);
+      // One statement stores samples, rollups, status, checkpoints and quarantine: a
+      // statement is its own transaction, and one round trip waits for the event loop
+      // once instead of once per table. Alert changes, rarer, need a transaction around it.
+      const transaction = alerts.length > 0;
+      if (transaction) await client.query('begin');
+      lap('connect');
+      await client.query({ name: 'wc_store_batch', text: STORE_BATCH, values: storeBatchValues(samples, quarantine, [...status.values()], [...checkpoints.values()]) });
+      lap('store');
       for (const op of alerts) await applyAlertOp(client, op);
-      await client.query('commit');
+      lap('alerts');
+      if (transaction) await client.query('commit');
+      lap('commit');
+      return phases;
     } catch (err) {
       await client.query('rollback').catch(() => undefined);
-      throw err;
-    } finally {
       // A connection that failed mid-transaction is not reused.
-      client.release();
+      this.dropConnection(err as Error);
+      throw err;
     }
+  }
+
+  /** The writer's own connection, kept between batches. */
+  private async connection(): Promise<PoolClient> {
+    this.client ??= await this.pool.connect();
+    return this.client;
+  }
+
+  private dropConnection(err: Error): void {
+    this.client?.release(err);
+    this.client = null;
   }
 }
 
-async function insertSamples(client: PoolClient, unsorted: SampleRow[]): Promise<void> {
+// $7 and $8 are every sample's innovation and whitened innovation end to end, sent as two
+// binary parameters; $42 and $43 give each sample's offset and length in them.
+const SAMPLE_COLUMNS = `$1::int[], $2::float8[], $3::int[], $4::real[], $5::real[], $6::real[], $42::int[], $43::int[]`;
+const ROLLUP_COLUMNS = `$9::int[], $10::float8[], $11::int[], $12::float8[], $13::real[], $14::real[], $15::int[], $16::real[], $17::real[], $18::text[]`;
+const STATUS_COLUMNS = `$19::int[], $20::text[], $21::float8[], $22::float8[], $23::float8[], $24::bigint[], $25::bigint[], $26::jsonb[], $27::float8[], $28::real[]`;
+const CHECKPOINT_COLUMNS = `$29::int[], $30::jsonb[], $31::bigint[]`;
+const QUARANTINE_COLUMNS = `$32::float8[], $33::text[], $34::text[], $35::int[], $36::text[], $37::text[], $38::text[], $39::bytea[], $40::int[], $41::int[]`;
+
+const STORE_BATCH = `
+with samples as (
+  insert into innovation_samples (estimator_id, t, seq, nis, cusum_up, cusum_down, nu, w)
+  select e, to_timestamp(t), seq, nis, up, down, substring($7::bytea from o + 1 for n), substring($8::bytea from o + 1 for n)
+    from unnest(${SAMPLE_COLUMNS}) as u(e, t, seq, nis, up, down, o, n)
+  on conflict do nothing
+), rollups as (
+  insert into estimator_rollups_minute as r (estimator_id, minute, samples, nis_sum, nis_min, nis_max, exceedances, cusum_up_max, cusum_down_max, verdict)
+  select e, to_timestamp(m), n, s, mn, mx, ex, up, down, v
+    from unnest(${ROLLUP_COLUMNS}) as u(e, m, n, s, mn, mx, ex, up, down, v)
+  on conflict (estimator_id, minute) do update set
+    samples = r.samples + excluded.samples,
+    nis_sum = r.nis_sum + excluded.nis_sum,
+    nis_min = least(r.nis_min, excluded.nis_min),
+    nis_max = greatest(r.nis_max, excluded.nis_max),
+    exceedances = r.exceedances + excluded.exceedances,
+    cusum_up_max = greatest(r.cusum_up_max, excluded.cusum_up_max),
+    cusum_down_max = greatest(r.cusum_down_max, excluded.cusum_down_max),
+    verdict = (${VERDICT_RANK})[greatest(array_position(${VERDICT_RANK}, r.verdict), array_position(${VERDICT_RANK}, excluded.verdict))]
+), status as (
+  insert into estimator_status as s (estimator_id, verdict, verdict_since, last_sample_at, last_received_at, last_seq, samples_total, "window", p_value, nis_ratio, updated_at)
+  select e, v, to_timestamp(since), to_timestamp(ls), to_timestamp(lr), seq, n, w, p, r, now()
+    from unnest(${STATUS_COLUMNS}) as u(e, v, since, ls, lr, seq, n, w, p, r)
+  on conflict (estimator_id) do update set
+    verdict = excluded.verdict,
+    verdict_since = excluded.verdict_since,
+    last_sample_at = coalesce(greatest(s.last_sample_at, excluded.last_sample_at), s.last_sample_at, excluded.last_sample_at),
+    last_received_at = coalesce(greatest(s.last_received_at, excluded.last_received_at), s.last_received_at, excluded.last_received_at),
+    last_seq = coalesce(excluded.last_seq, s.last_seq),
+    samples_total = s.samples_total + excluded.samples_total,
+    "window" = excluded."window",
+    p_value = excluded.p_value,
+    nis_ratio = excluded.nis_ratio,
+    updated_at = now()
+), checkpoints as (
+  insert into estimator_checkpoints as c (estimator_id, state, samples_seen, saved_at)
+  select e, s, n, now() from unnest(${CHECKPOINT_COLUMNS}) as u(e, s, n)
+  on conflict (estimator_id) do update set state = excluded.state, samples_seen = excluded.samples_seen, saved_at = now()
+), quarantined as (
+  insert into quarantine (received_at, unit_key, estimator_key, estimator_id, topic, reason_code, reason, payload, payload_bytes, sample_index)
+  select to_timestamp(at), u, ek, e, topic, code, reason, payload, bytes, idx
+    from unnest(${QUARANTINE_COLUMNS}) as x(at, u, ek, e, topic, code, reason, payload, bytes, idx)
+)
+select 1`;
+
+function storeBatchValues(unsorted: SampleRow[], quarantine: QuarantineRow[], status: StatusRow[], checkpoints: CheckpointRow[]): unknown[] {
   // In key order: neighbouring index entries land on the same pages.
   const rows = unsorted.slice().sort((a, b) => a.estimatorId - b.estimatorId || a.seq - b.seq);
+  const samples = sampleColumns(rows);
+  return [
+    ...samples.columns,
+    ...rollupColumns(rows),
+    ...statusColumns(status),
+    rowsOf(checkpoints, (r) => r.estimatorId),
+    rowsOf(checkpoints, (r) => JSON.stringify(r.state)),
+    rowsOf(checkpoints, (r) => r.samplesSeen),
+    ...quarantineColumns(quarantine),
+    samples.offsets,
+    samples.lengths,
+  ];
+}
+
+function rowsOf<R, V>(rows: readonly R[], pick: (r: R) => V): V[] {
+  const out = new Array<V>(rows.length);
+  for (let i = 0; i < rows.length; i++) out[i] = pick(rows[i]);
+  return out;
+}
+
+/**
+ * The sample columns as PostgreSQL array literals built here, and the innovations as
+ * two binary blobs: node-postgres would escape each of the tens of thousands of
+ * elements one by one on the event loop (a measured 100–300 ms stall per batch).
+ */
+function sampleColumns(rows: SampleRow[]): { columns: unknown[]; offsets: string; lengths: string } {
   const n = rows.length;
   const e = new Array<number>(n);
   const t = new Array<number>(n);
@@ -268,8 +385,11 @@ async function insertSamples(client: PoolClient, unsorted: SampleRow[]): Promise
   const nis = new Array<number>(n);
   const up = new Array<number>(n);
   const down = new Array<number>(n);
+  const off = new Array<number>(n);
+  const len = new Array<number>(n);
   const nu = new Array<Buffer>(n);
   const w = new Array<Buffer>(n);
+  let at = 0;
   for (let i = 0; i < n; i++) {
     const r = rows[i];
     e[i] = r.estimatorId;
@@ -280,19 +400,23 @@ async function insertSamples(client: PoolClient, unsorted: SampleRow[]): Promise
     down[i] = r.cusumDown;
     nu[i] = r.nu;
     w[i] = r.w;
+    off[i] = at;
+    len[i] = r.nu.length;
+    at += r.nu.length;
   }
-  await client.query({
-    name: 'wc_insert_samples',
-    text: `insert into innovation_samples (estimator_id, t, seq, nis, cusum_up, cusum_down, nu, w)
-           select e, to_timestamp(t), seq, nis, up, down, nu, w
-             from unnest($1::int[], $2::float8[], $3::int[], $4::real[], $5::real[], $6::real[], $7::bytea[], $8::bytea[])
-               as u(e, t, seq, nis, up, down, nu, w)
-           on conflict do nothing`,
-    values: [e, t, seq, nis, up, down, nu, w],
-  });
+  return {
+    columns: [numberArray(e), numberArray(t), numberArray(seq), numberArray(nis), numberArray(up), numberArray(down), Buffer.concat(nu, at), Buffer.concat(w, at)],
+    offsets: numberArray(off),
+    lengths: numberArray(len),
+  };
 }
 
-async function upsertRollups(client: PoolClient, rows: SampleRow[]): Promise<void> {
+/** '{1,2.5,-3e-7}': finite numbers only (the pipeline has checked them). */
+export function numberArray(values: number[]): string {
+  return `{${values.join(',')}}`;
+}
+
+function rollupColumns(rows: SampleRow[]): unknown[] {
   const rank = (v: VerdictWord) => ['consistent', 'marginal', 'inconsistent', 'silent'].indexOf(v);
   const agg = new Map<string, { e: number; minute: number; n: number; sum: number; min: number; max: number; ex: number; up: number; down: number; verdict: VerdictWord }>();
   for (const r of rows) {
@@ -313,99 +437,48 @@ async function upsertRollups(client: PoolClient, rows: SampleRow[]): Promise<voi
     }
   }
   const list = [...agg.values()];
-  await client.query({
-    name: 'wc_upsert_rollups',
-    text: `insert into estimator_rollups_minute as r (estimator_id, minute, samples, nis_sum, nis_min, nis_max, exceedances, cusum_up_max, cusum_down_max, verdict)
-           select e, to_timestamp(m), n, s, mn, mx, ex, up, down, v
-             from unnest($1::int[], $2::float8[], $3::int[], $4::float8[], $5::real[], $6::real[], $7::int[], $8::real[], $9::real[], $10::text[])
-               as u(e, m, n, s, mn, mx, ex, up, down, v)
-           on conflict (estimator_id, minute) do update set
-             samples = r.samples + excluded.samples,
-             nis_sum = r.nis_sum + excluded.nis_sum,
-             nis_min = least(r.nis_min, excluded.nis_min),
-             nis_max = greatest(r.nis_max, excluded.nis_max),
-             exceedances = r.exceedances + excluded.exceedances,
-             cusum_up_max = greatest(r.cusum_up_max, excluded.cusum_up_max),
-             cusum_down_max = greatest(r.cusum_down_max, excluded.cusum_down_max),
-             verdict = (${VERDICT_RANK})[greatest(array_position(${VERDICT_RANK}, r.verdict), array_position(${VERDICT_RANK}, excluded.verdict))]`,
-    values: [
-      list.map((a) => a.e),
-      list.map((a) => a.minute / 1000),
-      list.map((a) => a.n),
-      list.map((a) => a.sum),
-      list.map((a) => a.min),
-      list.map((a) => a.max),
-      list.map((a) => a.ex),
-      list.map((a) => a.up),
-      list.map((a) => a.down),
-      list.map((a) => a.verdict),
-    ],
-  });
+  return [
+    rowsOf(list, (a) => a.e),
+    rowsOf(list, (a) => a.minute / 1000),
+    rowsOf(list, (a) => a.n),
+    rowsOf(list, (a) => a.sum),
+    rowsOf(list, (a) => a.min),
+    rowsOf(list, (a) => a.max),
+    rowsOf(list, (a) => a.ex),
+    rowsOf(list, (a) => a.up),
+    rowsOf(list, (a) => a.down),
+    rowsOf(list, (a) => a.verdict),
+  ];
 }
 
-async function insertQuarantine(client: PoolClient, rows: QuarantineRow[]): Promise<void> {
-  await client.query({
-    name: 'wc_insert_quarantine',
-    text: `insert into quarantine (received_at, unit_key, estimator_key, estimator_id, topic, reason_code, reason, payload, payload_bytes, sample_index)
-           select to_timestamp(at), u, ek, e, topic, code, reason, payload, bytes, idx
-             from unnest($1::float8[], $2::text[], $3::text[], $4::int[], $5::text[], $6::text[], $7::text[], $8::bytea[], $9::int[], $10::int[])
-               as x(at, u, ek, e, topic, code, reason, payload, bytes, idx)`,
-    values: [
-      rows.map((r) => r.receivedAtMs / 1000),
-      rows.map((r) => r.unitKey),
-      rows.map((r) => r.estimatorKey),
-      rows.map((r) => r.estimatorId),
-      rows.map((r) => r.topic),
-      rows.map((r) => r.reasonCode),
-      rows.map((r) => r.reason),
-      rows.map((r) => r.payload),
-      rows.map((r) => r.payloadBytes),
-      rows.map((r) => r.sampleIndex),
-    ],
-  });
+function statusColumns(rows: StatusRow[]): unknown[] {
+  return [
+    rowsOf(rows, (r) => r.estimatorId),
+    rowsOf(rows, (r) => r.verdict),
+    rowsOf(rows, (r) => r.verdictSinceMs / 1000),
+    rowsOf(rows, (r) => (r.lastSampleAtMs === null ? null : r.lastSampleAtMs / 1000)),
+    rowsOf(rows, (r) => (r.lastReceivedAtMs === null ? null : r.lastReceivedAtMs / 1000)),
+    rowsOf(rows, (r) => r.lastSeq),
+    rowsOf(rows, (r) => r.samplesAdded),
+    rowsOf(rows, (r) => JSON.stringify(r.window ?? {})),
+    rowsOf(rows, (r) => r.pValue),
+    rowsOf(rows, (r) => r.nisRatio),
+  ];
 }
 
-async function upsertStatus(client: PoolClient, rows: StatusRow[]): Promise<void> {
-  await client.query({
-    name: 'wc_upsert_status',
-    text: `insert into estimator_status as s (estimator_id, verdict, verdict_since, last_sample_at, last_received_at, last_seq, samples_total, "window", p_value, nis_ratio, updated_at)
-           select e, v, to_timestamp(since), to_timestamp(ls), to_timestamp(lr), seq, n, w, p, r, now()
-             from unnest($1::int[], $2::text[], $3::float8[], $4::float8[], $5::float8[], $6::bigint[], $7::bigint[], $8::jsonb[], $9::float8[], $10::real[])
-               as u(e, v, since, ls, lr, seq, n, w, p, r)
-           on conflict (estimator_id) do update set
-             verdict = excluded.verdict,
-             verdict_since = excluded.verdict_since,
-             last_sample_at = coalesce(greatest(s.last_sample_at, excluded.last_sample_at), s.last_sample_at, excluded.last_sample_at),
-             last_received_at = coalesce(greatest(s.last_received_at, excluded.last_received_at), s.last_received_at, excluded.last_received_at),
-             last_seq = coalesce(excluded.last_seq, s.last_seq),
-             samples_total = s.samples_total + excluded.samples_total,
-             "window" = excluded."window",
-             p_value = excluded.p_value,
-             nis_ratio = excluded.nis_ratio,
-             updated_at = now()`,
-    values: [
-      rows.map((r) => r.estimatorId),
-      rows.map((r) => r.verdict),
-      rows.map((r) => r.verdictSinceMs / 1000),
-      rows.map((r) => (r.lastSampleAtMs === null ? null : r.lastSampleAtMs / 1000)),
-      rows.map((r) => (r.lastReceivedAtMs === null ? null : r.lastReceivedAtMs / 1000)),
-      rows.map((r) => r.lastSeq),
-      rows.map((r) => r.samplesAdded),
-      rows.map((r) => JSON.stringify(r.window ?? {})),
-      rows.map((r) => r.pValue),
-      rows.map((r) => r.nisRatio),
-    ],
-  });
-}
-
-async function upsertCheckpoints(client: PoolClient, rows: CheckpointRow[]): Promise<void> {
-  await client.query({
-    name: 'wc_upsert_checkpoints',
-    text: `insert into estimator_checkpoints as c (estimator_id, state, samples_seen, saved_at)
-           select e, s, n, now() from unnest($1::int[], $2::jsonb[], $3::bigint[]) as u(e, s, n)
-           on conflict (estimator_id) do update set state = excluded.state, samples_seen = excluded.samples_seen, saved_at = now()`,
-    values: [rows.map((r) => r.estimatorId), rows.map((r) => JSON.stringify(r.state)), rows.map((r) => r.samplesSeen)],
-  });
+function quarantineColumns(rows: QuarantineRow[]): unknown[] {
+  return [
+    rowsOf(rows, (r) => r.receivedAtMs / 1000),
+    rowsOf(rows, (r) => r.unitKey),
+    rowsOf(rows, (r) => r.estimatorKey),
+    rowsOf(rows, (r) => r.estimatorId),
+    rowsOf(rows, (r) => r.topic),
+    rowsOf(rows, (r) => r.reasonCode),
+    rowsOf(rows, (r) => r.reason),
+    rowsOf(rows, (r) => r.payload),
+    rowsOf(rows, (r) => r.payloadBytes),
+    rowsOf(rows, (r) => r.sampleIndex),
+  ];
 }
 
 const LIVE_ALERT = `coalesce(estimator_id, 0) = coalesce($1::int, 0) and coalesce(unit_id, 0) = coalesce($2::int, 0) and rule = $3 and state <> 'resolved'`;

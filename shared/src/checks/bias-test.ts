@@ -25,6 +25,7 @@ import {
   expectInteger,
   expectKind,
   expectNumberArray,
+  packFloat64,
   verdictOf,
 } from './verdict';
 
@@ -43,11 +44,12 @@ export interface BiasTestState {
   version: 1;
   config: BiasTestConfig;
   /** Ring buffer, N·m, sample-major. */
-  values: number[];
+  /** The window, packed by packFloat64 (checkpoints before it held plain arrays, still read). */
+  values: number[] | string;
   next: number;
   count: number;
   /** Compensated sums: [sum_0, c_0, sum_1, c_1, …]. */
-  sums: number[];
+  sums: number[] | string;
   total: number;
 }
 
@@ -186,10 +188,10 @@ export class BiasTest {
       kind: 'bias',
       version: 1,
       config: { ...this.config },
-      values: Array.from(this.values),
+      values: packFloat64(this.values),
       next: this.next,
       count: this.count,
-      sums: this.sums.toArray(),
+      sums: packFloat64(this.sums.toArray()),
       total: this.total,
     };
   }

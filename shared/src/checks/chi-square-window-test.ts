@@ -31,6 +31,7 @@ import {
   expectInteger,
   expectKind,
   expectNumberArray,
+  packFloat64,
   verdictOf,
 } from './verdict';
 
@@ -46,7 +47,8 @@ export interface ChiSquareWindowState {
   version: 1;
   config: ChiSquareWindowConfig;
   /** Ring buffer, length N. */
-  values: number[];
+  /** The window, packed by packFloat64 (checkpoints before it held plain arrays, still read). */
+  values: number[] | string;
   /** Next slot to write. */
   next: number;
   /** Values in the window (≤ N). */
@@ -218,7 +220,7 @@ export class ChiSquareWindowTest {
       kind: 'chi-square-window',
       version: 1,
       config: { ...this.config },
-      values: Array.from(this.values),
+      values: packFloat64(this.values),
       next: this.next,
       count: this.count,
       sum: [this.acc.acc[0], this.acc.acc[1]],

@@ -63,7 +63,37 @@ export function expectKind(state: unknown, kind: string, version: number): Recor
   return record;
 }
 
+/**
+ * Float64 values packed for a checkpoint: little-endian IEEE 754 doubles in base64
+ * (about 10.7 characters a value against 18–24 as JSON decimals, and exact).
+ */
+export function packFloat64(values: ArrayLike<number>): string {
+  const view = new DataView(new ArrayBuffer(values.length * 8));
+  for (let i = 0; i < values.length; i++) view.setFloat64(i * 8, values[i], true);
+  const bytes = new Uint8Array(view.buffer);
+  let binary = '';
+  for (let i = 0; i < bytes.length; i += 0x8000) binary += String.fromCharCode(...bytes.subarray(i, i + 0x8000));
+  return btoa(binary);
+}
+
+function unpackFloat64(packed: string, what: string): number[] {
+  let binary: string;
+  try {
+    binary = atob(packed);
+  } catch {
+    throw new CheckpointError(`${what}: not base64`);
+  }
+  if (binary.length % 8 !== 0) throw new CheckpointError(`${what}: packed length ${binary.length} is not a multiple of 8 bytes`);
+  const view = new DataView(new ArrayBuffer(binary.length));
+  for (let i = 0; i < binary.length; i++) view.setUint8(i, binary.charCodeAt(i));
+  const out = new Array<number>(binary.length / 8);
+  for (let i = 0; i < out.length; i++) out[i] = view.getFloat64(i * 8, true);
+  return out;
+}
+
+/** A checkpoint's number list: a JSON array, or values packed by {@link packFloat64}. */
 export function expectNumberArray(value: unknown, length: number, what: string): number[] {
+  if (typeof value === 'string') value = unpackFloat64(value, what);
   if (!Array.isArray(value) || value.length !== length || !value.every((v) => typeof v === 'number' && Number.isFinite(v))) {
     throw new CheckpointError(`${what}: expected ${length} finite numbers`);
   }

@@ -46,6 +46,7 @@ import {
   expectInteger,
   expectKind,
   expectNumberArray,
+  packFloat64,
   verdictOf,
 } from './verdict';
 
@@ -106,13 +107,14 @@ export interface WhitenessTestState {
   kind: 'whiteness';
   version: 1;
   config: WhitenessTestConfig;
-  values: number[];
+  /** The window, packed by packFloat64 (checkpoints before it held plain arrays, still read). */
+  values: number[] | string;
   next: number;
   count: number;
   /** Compensated accumulators, per component i: [S₁, S₂], each as (sum, c). */
-  sums: number[];
+  sums: number[] | string;
   /** Lagged products, per component i: P_1 … P_L. */
-  products: number[];
+  products: number[] | string;
   total: number;
 }
 
@@ -311,11 +313,11 @@ export class WhitenessTest {
       kind: 'whiteness',
       version: 1,
       config: { ...this.config },
-      values: Array.from(this.values),
+      values: packFloat64(this.values),
       next: this.next,
       count: this.count,
-      sums: this.sums.toArray(),
-      products: Array.from(this.products),
+      sums: packFloat64(this.sums.toArray()),
+      products: packFloat64(this.products),
       total: this.total,
     };
   }
