@@ -22,10 +22,16 @@ const env = process.env;
 const pgPort = Number(env.WHITECAP_PG_PORT ?? 5436);
 const httpPort = Number(env.WHITECAP_HTTP_PORT ?? 8610);
 const mqttPort = Number(env.WHITECAP_MQTT_PORT ?? 1886);
+const mailSmtpPort = Number(env.WHITECAP_MAIL_CATCHER_SMTP_PORT ?? 1025);
+const mailHttpPort = Number(env.WHITECAP_MAIL_CATCHER_HTTP_PORT ?? 8625);
+// Without a configured relay, mail goes to the local stand-in that captures it.
+const realRelay = Boolean(env.WHITECAP_SMTP_HOST);
 for (const [name, value] of [
   ['WHITECAP_PG_PORT', pgPort],
   ['WHITECAP_HTTP_PORT', httpPort],
   ['WHITECAP_MQTT_PORT', mqttPort],
+  ['WHITECAP_MAIL_CATCHER_SMTP_PORT', mailSmtpPort],
+  ['WHITECAP_MAIL_CATCHER_HTTP_PORT', mailHttpPort],
 ]) {
   if (!Number.isInteger(value) || value < 1 || value > 65535) {
     console.error(`${name}=${JSON.stringify(env[name])}: must be a port number between 1 and 65535`);
@@ -79,6 +85,15 @@ async function main() {
     WHITECAP_HTTP_PORT: String(httpPort),
     WHITECAP_MQTT_PORT: String(mqttPort),
   };
+  if (!realRelay) {
+    const catcher = startChild(...tsNode('ingest/cli/mail-catcher.ts'), {
+      WHITECAP_MAIL_CATCHER_SMTP_PORT: String(mailSmtpPort),
+      WHITECAP_MAIL_CATCHER_HTTP_PORT: String(mailHttpPort),
+    });
+    children.push(catcher);
+    await waitForHttp(`http://127.0.0.1:${mailHttpPort}/api/messages`, 30_000);
+    Object.assign(serviceEnv, { WHITECAP_SMTP_HOST: '127.0.0.1', WHITECAP_SMTP_PORT: String(mailSmtpPort) });
+  }
   runTs('ingest/cli/migrate.ts', ['latest'], serviceEnv);
   runTs('ingest/cli/seed.ts', [], serviceEnv);
   ensureDashboardBuilt(log);
@@ -108,6 +123,9 @@ async function main() {
       `  Health:      ${url}/api/health`,
       `  MQTT broker: mqtt://127.0.0.1:${mqttPort} (units sign in with their own credentials)`,
       `  PostgreSQL:  127.0.0.1:${pgPort}`,
+      realRelay
+        ? `  Mail:        sent through ${env.WHITECAP_SMTP_HOST}:${env.WHITECAP_SMTP_PORT ?? 1025}`
+        : `  Mail:        captured at http://127.0.0.1:${mailHttpPort}/ (the demo rota pages responder@saltmarsh.example)`,
       '',
       '  Demo sign-ins (Saltmarsh Terminal, invented demo data):',
       signIns,

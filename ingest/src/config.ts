@@ -59,6 +59,20 @@ const schema = z.object({
   WHITECAP_ALPHA_MARGINAL: z.coerce.number({ error: 'must be a number' }).gt(0, 'must be between 0 and 1').lt(1, 'must be between 0 and 1').default(0.01),
   WHITECAP_ALERT_P_VALUE: z.coerce.number({ error: 'must be a number' }).gt(0, 'must be between 0 and 1').lt(1, 'must be between 0 and 1').default(1e-6),
   WHITECAP_CUSUM_ARL0: z.coerce.number({ error: 'must be a number' }).min(100, 'must be at least 100').default(1e7),
+  WHITECAP_NOTIFICATIONS: bool.default(true),
+  WHITECAP_SMTP_HOST: host.default('127.0.0.1'),
+  WHITECAP_SMTP_PORT: port.default(1025),
+  WHITECAP_SMTP_SECURE: bool.default(false),
+  WHITECAP_SMTP_USER: z.string().optional(),
+  WHITECAP_SMTP_PASSWORD: z.string().optional(),
+  WHITECAP_MAIL_FROM: z.string().min(3).default('Whitecap <whitecap@localhost>'),
+  WHITECAP_LINK_SECRET: z.string().min(32, 'must be at least 32 characters').optional(),
+  WHITECAP_ACK_LINK_TTL_MS: positiveInt.default(24 * 3_600_000),
+  WHITECAP_STORM_WINDOW_MS: positiveInt.default(3 * 60_000),
+  WHITECAP_NOTIFY_SWEEP_MS: positiveInt.default(5_000),
+  WHITECAP_DISPATCH_EVERY_MS: positiveInt.default(1_000),
+  WHITECAP_DELIVERY_MAX_ATTEMPTS: positiveInt.default(10),
+  WHITECAP_WEBHOOK_TIMEOUT_MS: positiveInt.default(5_000),
 });
 
 export interface Config {
@@ -107,6 +121,20 @@ export interface Config {
     cusumArl0: number;
     /** p-value below which a window test pages (see ingest/src/pipeline/alert-rules.ts). */
     alertPValue: number;
+  };
+  notify: {
+    enabled: boolean;
+    smtp: { host: string; port: number; secure: boolean; user: string | null; password: string | null };
+    mailFrom: string;
+    /** Signs acknowledge links; without it links are signed with the JWT secret, or a random key for this run. */
+    linkSecret: string | null;
+    ackLinkTtlMs: number;
+    stormWindowMs: number;
+    /** How often handoffs are looked for and grouped messages sent. */
+    sweepEveryMs: number;
+    dispatchEveryMs: number;
+    maxAttempts: number;
+    webhookTimeoutMs: number;
   };
 }
 
@@ -193,6 +221,24 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
       alphaMarginal: v.WHITECAP_ALPHA_MARGINAL,
       cusumArl0: v.WHITECAP_CUSUM_ARL0,
       alertPValue: v.WHITECAP_ALERT_P_VALUE,
+    },
+    notify: {
+      enabled: v.WHITECAP_NOTIFICATIONS,
+      smtp: {
+        host: v.WHITECAP_SMTP_HOST,
+        port: v.WHITECAP_SMTP_PORT,
+        secure: v.WHITECAP_SMTP_SECURE,
+        user: v.WHITECAP_SMTP_USER ?? null,
+        password: v.WHITECAP_SMTP_PASSWORD ?? null,
+      },
+      mailFrom: v.WHITECAP_MAIL_FROM,
+      linkSecret: v.WHITECAP_LINK_SECRET ?? v.WHITECAP_JWT_SECRET ?? null,
+      ackLinkTtlMs: v.WHITECAP_ACK_LINK_TTL_MS,
+      stormWindowMs: v.WHITECAP_STORM_WINDOW_MS,
+      sweepEveryMs: v.WHITECAP_NOTIFY_SWEEP_MS,
+      dispatchEveryMs: v.WHITECAP_DISPATCH_EVERY_MS,
+      maxAttempts: v.WHITECAP_DELIVERY_MAX_ATTEMPTS,
+      webhookTimeoutMs: v.WHITECAP_WEBHOOK_TIMEOUT_MS,
     },
   };
 }

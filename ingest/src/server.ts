@@ -25,6 +25,10 @@ import { CheckpointLoader } from './pipeline/checkpoint-loader';
 import { EstimatorRegistry } from './pipeline/estimator-registry';
 import { IngestPipeline } from './pipeline/ingest-pipeline';
 import { PartitionManager } from './pipeline/partitions';
+import { ackRouter } from './notify/ack-router';
+import { Dispatcher } from './notify/dispatcher';
+import { Notifier } from './notify/notifier';
+import { NotifyRepository } from './notify/notify-repository';
 
 export interface RunningService {
   knex: Knex;
@@ -33,6 +37,8 @@ export interface RunningService {
   events: ServiceEvents;
   metrics: Metrics;
   httpPort: number;
+  notifier: Notifier | null;
+  dispatcher: Dispatcher | null;
   stop(): Promise<void>;
 }
 
@@ -189,8 +195,33 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
     lags: 10,
     arl0: config.ingest.cusumArl0,
   });
+  // The notification side: who is on watch, pages and handoffs, webhooks, the outbox.
+  const notifyRepo = new NotifyRepository(knex);
+  const linkSecret = config.notify.linkSecret ?? secret;
+  let notifier: Notifier | null = null;
+  let dispatcher: Dispatcher | null = null;
+  if (config.notify.enabled) {
+    notifier = new Notifier(
+      { repo: notifyRepo, events, clock, logger },
+      { baseUrl: config.http.publicUrl, linkSecret, ackLinkTtlMs: config.notify.ackLinkTtlMs, stormWindowMs: config.notify.stormWindowMs },
+    );
+    notifier.start();
+    dispatcher = new Dispatcher(notifyRepo, logger, {
+      smtp: config.notify.smtp,
+      mailFrom: config.notify.mailFrom,
+      maxAttempts: config.notify.maxAttempts,
+      webhookTimeoutMs: config.notify.webhookTimeoutMs,
+    });
+    const requeued = await notifyRepo.requeueSending().catch(() => 0);
+    if (requeued > 0) logger.info({ requeued }, 'deliveries left sending by the last run are queued again');
+    const n = notifier;
+    const d = dispatcher;
+    every(config.notify.sweepEveryMs, 'notification sweep', () => n.sweep());
+    every(config.notify.dispatchEveryMs, 'delivery', () => d.runOnce());
+  }
   const app = createApp({
     logger,
+    publicRouters: [{ path: '/acknowledgements', router: ackRouter({ knex, repo: notifyRepo, events, clock, linkSecret }) }],
     health,
     auth,
     passport,
@@ -216,6 +247,8 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
     knex,
     broker,
     pipeline,
+    notifier,
+    dispatcher,
     events,
     metrics,
     httpPort,
@@ -227,6 +260,11 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
       await pipeline.sweep().catch(() => undefined);
       await pipeline.checkpoint().catch(() => undefined);
       await writer.close();
+      if (notifier) await notifier.stop().catch((err: Error) => logger.warn({ err: err.message }, 'notifications not flushed'));
+      if (dispatcher) {
+        await dispatcher.runOnce(200).catch(() => undefined);
+        dispatcher.close();
+      }
       await new Promise<void>((resolve) => {
         server.close(() => resolve());
         server.closeAllConnections();

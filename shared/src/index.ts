@@ -88,3 +88,17 @@ export type {
 
 export { benjaminiHochberg, fleetDiscoveries } from './fleet/benjamini-hochberg';
 export type { BenjaminiHochbergResult, FleetEntry } from './fleet/benjamini-hochberg';
+
+export { validateWatchRota, onWatchAt, nextHandovers, handoffChain, WatchRotaError } from './rota/watch-rota';
+export type {
+  WatchRota,
+  WatchShift,
+  WatchOverride,
+  RotaScope,
+  IsoWeekday,
+  RotaIssue,
+  RotaIssueCode,
+  RotaValidation,
+  OnWatch,
+  Handover,
+} from './rota/watch-rota';

@@ -79,7 +79,7 @@ describe('parseFaultSpec', () => {
       factor.map((f) => ({ kind: 'qlow' as const, factor: f })),
       fc
         .record({ offset: fc.double({ min: -50, max: 50, noNaN: true }), component: fc.integer({ min: 0, max: 3 }), flicker: fc.option(fc.integer({ min: 1, max: 60 })) })
-        .map(({ offset, component, flicker }) => ({ kind: 'bias' as const, offset, component, ...(flicker === null ? {} : { flickerS: flicker }) })),
+        .map(({ offset, component, flicker }) => ({ kind: 'bias' as const, offset: offset || 0 /* -0 is written as 0 */, component, ...(flicker === null ? {} : { flickerS: flicker }) })),
       fc.constant({ kind: 'stuck' as const }),
       fc.constant({ kind: 'silence' as const }),
       fraction.map((f) => ({ kind: 'dropout' as const, fraction: f })),

@@ -90,6 +90,8 @@ describe('operations in the dashboard', () => {
     expect(await page.getByRole('navigation', { name: 'Main' }).getByRole('link').allTextContents()).toEqual([
       expect.stringContaining('Fleet'),
       expect.stringContaining('Alerts'),
+      expect.stringContaining('Watch rota'),
+      expect.stringContaining('Notifications'),
     ]);
     await page.screenshot({ path: path.join(screenshotDir, 'fleet-overview.png'), fullPage: true });
   });

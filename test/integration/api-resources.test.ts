@@ -125,13 +125,15 @@ describe('API resources', () => {
     expect((await api(service.url, responder, `/alerts/${alert.id}/notes`, { method: 'POST', body: { text: '' } })).status).toBe(400);
     const resolved = await api<AlertDetail>(service.url, responder, `/alerts/${alert.id}/resolve`, { method: 'POST', body: {} });
     expect(resolved.body.state).toBe('resolved');
-    expect(resolved.body.events.map((e) => [e.kind, e.actor])).toEqual([
+    // (Paging entries of the notification side are left out here; notifications.test.ts has them.)
+    const trail = resolved.body.events.filter((e) => e.kind !== 'paged' && e.kind !== 'not-paged');
+    expect(trail.map((e) => [e.kind, e.actor])).toEqual([
       ['opened', null],
       ['acknowledged', 'Ravi Castellan (on call)'],
       ['note', 'Ravi Castellan (on call)'],
       ['resolved', 'Ravi Castellan (on call)'],
     ]);
-    expect(resolved.body.events[2].note).toBe('sensor cable swapped');
+    expect(trail[2].note).toBe('sensor cable swapped');
   });
 
   it('shows the quarantine to designers (not viewers): what, from which unit, why, how often', async () => {

@@ -110,7 +110,8 @@ describe('ingest: checks and alerts on simulated estimators', () => {
     expect(first.openedAtSeq - 1000).toBeLessThanOrEqual(150);
     // 1,200 healthy samples after the fault, then the 500 ms hold: every alert clears by itself.
     await waitFor('the alerts to clear', async () => (await alertsOf(id)).every((a) => a.state === 'resolved'));
-    const events = await knex('alert_events').where({ alert_id: first.id }).orderBy('id').pluck('kind');
+    // (The notification side adds its own entries: paged, or why not.)
+    const events = await knex('alert_events').where({ alert_id: first.id }).whereNotIn('kind', ['paged', 'not-paged']).orderBy('id').pluck('kind');
     expect(events).toEqual(['opened', 'cleared']);
   });
 

@@ -38,6 +38,8 @@ export async function startService(env: Record<string, string>, timeoutMs = 30_0
       WHITECAP_HTTP_PORT: String(httpPort),
       WHITECAP_MQTT_PORT: String(mqttPort),
       WHITECAP_LOG_LEVEL: 'warn',
+      // Mail goes nowhere unless a test starts its own SMTP fake (never to one npm start runs).
+      WHITECAP_SMTP_PORT: String(await freePort()),
       ...env,
     },
     stdio: ['ignore', 'pipe', 'pipe'],

@@ -4,6 +4,12 @@ import { signedIn } from './auth/signed-in';
 
 export const routes: Routes = [
   { path: 'sign-in', loadComponent: () => import('./auth/sign-in').then((m) => m.SignIn), title: 'Sign in · Whitecap' },
+  // Public: opened from an e-mail, no sign-in (the token is the credential, and only the button uses it).
+  {
+    path: 'ack/:token',
+    loadComponent: () => import('./notifications/acknowledge-link').then((m) => m.AcknowledgeLink),
+    title: 'Acknowledge an alert · Whitecap',
+  },
   {
     path: '',
     canActivate: [signedIn],
@@ -28,6 +34,17 @@ export const routes: Routes = [
           { path: '', children: [] },
           { path: ':id', loadComponent: () => import('./alerts/alert-detail').then((m) => m.AlertDetail) },
         ],
+      },
+      {
+        path: 'rota',
+        loadComponent: () => import('./rota/watch-rota').then((m) => m.WatchRota),
+        title: 'Watch rota · Whitecap',
+      },
+      {
+        path: 'notifications',
+        canActivate: [allowedFor('respond')],
+        loadComponent: () => import('./notifications/notifications').then((m) => m.Notifications),
+        title: 'Notifications · Whitecap',
       },
       {
         path: 'quarantine',

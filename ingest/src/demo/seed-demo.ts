@@ -100,6 +100,22 @@ export async function seedDemo(knex: Knex): Promise<{ users: number; units: numb
         .onConflict('username')
         .ignore();
     }
+    // The demo's watch rota: the on-call engineer every day from 08:00 port time, the
+    // administrator next in line.
+    if (!(await trx('watch_rotas').whereNull('site_id').first('id'))) {
+      const idOf = async (email: string) => Number((await trx('users').where({ email }).first<{ id: number }>('id')).id);
+      const responder = await idOf('responder@saltmarsh.example');
+      const admin = await idOf('admin@saltmarsh.example');
+      await trx('watch_rotas').insert({
+        name: DEMO_ROTA_NAME,
+        site_id: null,
+        time_zone: 'Europe/Amsterdam',
+        shifts: JSON.stringify([1, 2, 3, 4, 5, 6, 7].map((weekday) => ({ weekday, handover: '08:00', userId: responder }))),
+        backups: JSON.stringify([admin]),
+      });
+    }
     return { users: demoUsers.length, units: demoUnits.length, estimators };
   });
 }
+
+export const DEMO_ROTA_NAME = 'Saltmarsh Terminal watch';

@@ -17,6 +17,9 @@ import { fleetRoutes } from '../fleet/fleet-routes';
 import { eventsRoutes } from '../live/events-routes';
 import { QuarantineRepository } from '../quarantine/quarantine-repository';
 import { quarantineRoutes } from '../quarantine/quarantine-routes';
+import { NotifyRepository } from '../notify/notify-repository';
+import { notifyRoutes } from '../notify/notify-routes';
+import { RotaService } from '../notify/rota-service';
 import { usersRoutes } from '../users/users-routes';
 import type { RouteDef } from './route-table';
 
@@ -44,6 +47,7 @@ export function apiRoutes(knex: Knex, events: ServiceEvents, clock: Clock, setti
     ...fleetAdminRoutes(new FleetAdminRepository(knex)),
     ...designsRoutes(knex),
     ...usersRoutes(new UsersRepository(knex)),
+    ...notifyRoutes(new NotifyRepository(knex), new RotaService(new NotifyRepository(knex), clock)),
     ...eventsRoutes(events),
   ];
 }

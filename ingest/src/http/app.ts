@@ -28,6 +28,8 @@ export interface AppDeps {
   routes: RouteDef[];
   publicUrl: string;
   dashboardDir: string;
+  /** Routers under /api that need no sign-in (each does its own checking). */
+  publicRouters?: { path: string; router: express.Router }[];
 }
 
 const DOCS_INIT = `window.onload = function () {
@@ -84,6 +86,7 @@ export function createApp(deps: AppDeps): Express {
     res.type('application/javascript').send(DOCS_INIT);
   });
   api.use('/docs', express.static(swaggerUiDir(), { index: false }));
+  for (const p of deps.publicRouters ?? []) api.use(p.path, p.router);
   const resources = express.Router();
   mountRoutes(resources, deps.routes, requireSignedIn(deps.passport));
   api.use(resources);

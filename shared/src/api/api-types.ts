@@ -287,3 +287,126 @@ export interface AlertChange {
   summary?: string;
   at: string;
 }
+
+// ---------------------------------------------------------------------------
+// Notifications: the watch rota, notification rules, webhooks, deliveries, and the
+// acknowledge link sent by e-mail. Times are ISO 8601 strings.
+
+export interface PersonRef {
+  userId: number;
+  displayName: string;
+}
+
+/** Whole fleet, or one site. */
+export type RotaScopeRef = { kind: 'fleet' } | { kind: 'site'; siteId: number; siteName: string };
+
+export interface RotaShiftRef extends PersonRef {
+  /** ISO weekday, Monday = 1 … Sunday = 7. */
+  weekday: number;
+  /** Local handover time in the rota's time zone, 'HH:MM'. */
+  handover: string;
+}
+
+export interface RotaOverrideRef extends PersonRef {
+  id: number;
+  from: string;
+  to: string;
+  note: string | null;
+}
+
+export interface RotaSummary {
+  id: number;
+  name: string;
+  scope: RotaScopeRef;
+  /** IANA time zone the weekly handover times are in. */
+  timeZone: string;
+  shifts: RotaShiftRef[];
+  /** Next in line after whoever is on watch, in order. */
+  backups: PersonRef[];
+  overrides: RotaOverrideRef[];
+  /** Who is on watch now (null when the rota has nobody). */
+  onWatch: (PersonRef & { since: string | null; until: string | null; source: 'weekly' | 'override' }) | null;
+  /** The next handovers (at most 5). */
+  next: (PersonRef & { at: string })[];
+  /** Who is paged, in order: on watch, then the backups. */
+  handoffChain: PersonRef[];
+}
+
+/** Create or replace a rota. siteId null: the whole fleet. */
+export interface RotaInput {
+  name: string;
+  siteId: number | null;
+  timeZone: string;
+  shifts: { weekday: number; handover: string; userId: number }[];
+  backups: number[];
+}
+
+export interface RotaOverrideInput {
+  from: string;
+  to: string;
+  userId: number;
+  note?: string;
+}
+
+/** What happens with alerts of one severity. */
+export interface NotificationRule {
+  severity: AlertSeverity;
+  /** Page whoever is on watch (otherwise the alert only shows on the dashboard). */
+  pages: boolean;
+  /** Hand off to the next person in line when not acknowledged within this time. */
+  handoffAfterMinutes: number;
+  /** Quiet hours in the rota's time zone ('HH:MM'), when this severity does not page; both null for none. */
+  quietFrom: string | null;
+  quietTo: string | null;
+}
+
+export interface WebhookEndpoint {
+  id: number;
+  url: string;
+  description: string;
+  active: boolean;
+  createdAt: string;
+  /** The last 4 characters of the signing secret. */
+  secretHint: string;
+}
+
+/** Returned once, when an endpoint is registered or its secret rotated. */
+export interface WebhookEndpointWithSecret extends WebhookEndpoint {
+  secret: string;
+}
+
+export type DeliveryStatus = 'pending' | 'sent' | 'failed';
+
+export interface Delivery {
+  id: number;
+  channel: 'email' | 'webhook';
+  /** E-mail address, or the webhook's URL. */
+  target: string;
+  /** E-mail subject, or the webhook event type. */
+  subject: string;
+  status: DeliveryStatus;
+  attempts: number;
+  lastError: string | null;
+  createdAt: string;
+  sentAt: string | null;
+  nextAttemptAt: string | null;
+  alertIds: number[];
+}
+
+export type DeliveryList = Page<Delivery>;
+
+/** What the public acknowledge page shows for a link from an e-mail. */
+export interface AcknowledgeLinkInfo {
+  alert: { id: number; rule: string; severity: AlertSeverity; summary: string; unitKey: string | null; estimatorKey: string | null; openedAt: string; state: AlertState };
+  recipient: string;
+  expiresAt: string;
+  /** False when the link was used already, has expired, or the alert is no longer open. */
+  usable: boolean;
+  reason: 'used' | 'expired' | 'not-open' | null;
+}
+
+export interface AcknowledgeLinkResult {
+  alertId: number;
+  acknowledgedBy: string;
+  acknowledgedAt: string;
+}

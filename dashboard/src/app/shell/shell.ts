@@ -22,6 +22,8 @@ interface NavItem {
 const NAV: NavItem[] = [
   { path: '/fleet', label: 'Fleet', icon: 'monitoring', ability: 'read' },
   { path: '/alerts', label: 'Alerts', icon: 'notifications_active', ability: 'read' },
+  { path: '/rota', label: 'Watch rota', icon: 'event_repeat', ability: 'read' },
+  { path: '/notifications', label: 'Notifications', icon: 'forward_to_inbox', ability: 'respond' },
   { path: '/quarantine', label: 'Quarantine', icon: 'gpp_maybe', ability: 'quarantine' },
   { path: '/admin', label: 'Administration', icon: 'admin_panel_settings', ability: 'administer' },
 ];
