@@ -117,4 +117,35 @@ describe('ingest: restarting the service', () => {
     for (const s of [...seqs, ...next.map((x) => x.seq)]) expect(after.has(s)).toBe(true);
     expect(await checkpointSamples()).toBeGreaterThan(0);
   });
+
+  it('does not count the time the service was down as silence: after a restart an estimator has its silence period from the start', async () => {
+    const service = await startService(env());
+    const unit = await connectUnit(service.mqttPort, UNIT, demoDeviceSecret(UNIT));
+    await publishAcked(unit, topic, batchPayload(samples(50, 23)));
+    await endClient(unit);
+    expect(await service.stop('SIGTERM')).toBe(0);
+    // As if the service had been down for an hour.
+    const id = (await knex('estimators as e').join('units as u', 'u.id', 'e.unit_id').where({ 'u.key': UNIT }).first('e.id')).id;
+    await knex('estimator_status').where({ estimator_id: id }).update({ last_received_at: new Date(Date.now() - 3_600_000) });
+
+    const silenceEnv = { ...env(), WHITECAP_SWEEP_EVERY_MS: '100', WHITECAP_SILENCE_FACTOR: '2', WHITECAP_SILENCE_FLOOR_MS: '3000' };
+    const started = Date.now(); // the service starts after this
+    const again = await startService(silenceEnv);
+    const silenceAlerts = () => knex('alerts').where({ estimator_id: id, rule: 'silence' }).select('opened_at');
+    try {
+      await new Promise((r) => setTimeout(r, Math.max(0, started + 1500 - Date.now())));
+      expect(await silenceAlerts()).toEqual([]);
+      // The unit stays quiet: silent once the floor has passed since the start.
+      const deadline = Date.now() + 15_000;
+      let alerts = await silenceAlerts();
+      while (alerts.length === 0 && Date.now() < deadline) {
+        await new Promise((r) => setTimeout(r, 100));
+        alerts = await silenceAlerts();
+      }
+      expect(alerts).toHaveLength(1);
+      expect(new Date(alerts[0].opened_at).getTime() - started).toBeGreaterThanOrEqual(3000);
+    } finally {
+      await again.stop('SIGTERM');
+    }
+  });
 });

@@ -119,6 +119,8 @@ function toFloat32(values: ArrayLike<number>, m: number): Buffer {
 
 export class IngestPipeline {
   private readonly streams = new Map<number, EstimatorStream>();
+  /** When this service started listening: silence is not judged from before it. */
+  private readonly startedAtMs: number;
   private readonly loading = new Map<number, Promise<EstimatorStream>>();
   private readonly validatePayload: ValidateFunction;
   private readonly unitQuarantine = new Map<string, { times: number[]; rules: AlertRuleState; unitId: number | null }>();
@@ -138,6 +140,7 @@ export class IngestPipeline {
     settings: Partial<PipelineSettings> = {},
   ) {
     this.settings = { ...DEFAULT_PIPELINE_SETTINGS, ...settings };
+    this.startedAtMs = deps.clock.now();
     const ajv = new Ajv2020({ allErrors: false, strict: true, strictRequired: false, strictNumbers: false, validateFormats: false });
     this.validatePayload = ajv.compile(payloadSchema);
   }
@@ -504,7 +507,10 @@ export class IngestPipeline {
     for (const stream of this.streams.values()) {
       if (stream.lastReceivedAtMs === null) continue;
       const silentAfter = Math.max(stream.info.expectedIntervalMs * this.settings.silenceFactor, this.settings.silenceFloorMs);
-      const silent = !behind && now - stream.lastReceivedAtMs > silentAfter;
+      // Silence counts from the later of the last sample and this service's start: while the
+      // service was down nobody could hear the units, and after a restart they need a moment
+      // to reconnect before their quiet means anything.
+      const silent = !behind && now - Math.max(stream.lastReceivedAtMs, this.startedAtMs) > silentAfter;
       const turnedSilent = silent && stream.verdict !== 'silent';
       if (turnedSilent) {
         verdictEvents.push({ stream, previous: stream.verdict });
