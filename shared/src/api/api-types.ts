@@ -17,6 +17,8 @@ export const ROLE_ABILITIES = {
   quarantine: ['designer', 'admin'],
   /** Users, sites, units, estimators, device credentials. */
   administer: ['admin'],
+  /** Field residuals, retune studies, draft design revisions. */
+  design: ['designer', 'admin'],
 } as const satisfies Record<string, readonly Role[]>;
 export type Ability = keyof typeof ROLE_ABILITIES;
 
@@ -409,4 +411,100 @@ export interface AcknowledgeLinkResult {
   alertId: number;
   acknowledgedBy: string;
   acknowledgedAt: string;
+}
+
+// ---------------------------------------------------------------------------
+// Designer's workbench: retune studies. Matrices are row-major number[][].
+
+export interface ComplexNumber {
+  re: number;
+  im: number;
+}
+
+export interface StudyRequest {
+  /** The estimators whose residuals to use; or all estimators on one design revision (a cohort). */
+  estimatorIds?: number[];
+  designRevisionId?: number;
+  /** The window, ISO 8601. */
+  from: string;
+  to: string;
+  /** Autocovariance lags (default 15). */
+  lags?: number;
+  estimateQ?: 'diagonal' | 'full';
+  estimateR?: 'diagonal' | 'full';
+  /** Regulator gain K (u = −K x̂) to check the closed loop with; else the design's own K if it has one. */
+  regulatorK?: number[][];
+  /** Margin floors for the warnings (defaults 6 dB, 30°, disk α 0.4). */
+  marginFloor?: { gainDb?: number; phaseDeg?: number; diskAlpha?: number };
+  title?: string;
+}
+
+export interface StudyFilter {
+  /** One-step predictor gain L (x̂ₖ₊₁ = A x̂ₖ + L(yₖ − C x̂ₖ)). */
+  L: number[][];
+  /** Innovation covariance the filter predicts, C P Cᵀ + R. */
+  S: number[][];
+  poles: ComplexNumber[];
+}
+
+export interface StudyMargins {
+  closedLoopStable: boolean;
+  /** null: unlimited, or not meaningful (closed loop unstable). */
+  gainMarginUpperDb: number | null;
+  gainMarginLowerDb: number | null;
+  phaseMarginDeg: number | null;
+  diskAlpha: number | null;
+  /** For the Bode plot. */
+  sweep: { omega: number[]; magnitudeDb: number[]; phaseDeg: number[] };
+}
+
+export interface RetuneStudy {
+  id: number;
+  title: string;
+  createdAt: string;
+  createdBy: string;
+  request: StudyRequest;
+  design: { designId: number; designKey: string; revisionId: number; revision: number; stateDim: number; measurementDim: number };
+  estimators: { id: number; unitKey: string; key: string; samples: number }[];
+  samples: number;
+  assumed: { Q: number[][]; R: number[][] };
+  estimated: {
+    Q: number[][];
+    R: number[][];
+    /** Per-entry bootstrap intervals (lo, hi) when computed. */
+    intervals: { Q: [number, number][][]; R: [number, number][][] } | null;
+    identifiable: { Q: boolean; R: boolean; reason: string };
+    rank: number;
+    unknowns: number;
+    condition: number;
+  };
+  /** NIS mean / m: observed in the data; predicted for the current filter under the estimated noise; for the proposed filter (1 by construction). */
+  nis: { observed: number; predictedCurrent: number; predictedProposed: number; m: number };
+  current: StudyFilter;
+  proposed: StudyFilter;
+  /** With a regulator gain: the combined loop and the margins at the plant input before and after. */
+  loop: {
+    K: number[][];
+    separation: { agree: boolean; largestMismatch: number; combinedPoles: ComplexNumber[] };
+    marginsCurrent: StudyMargins;
+    marginsProposed: StudyMargins;
+    warnings: string[];
+  } | null;
+  autocovariance: { lags: number[]; estimated: number[]; fitted: number[] };
+  /** Plain-language notes: identifiability, too few samples, and the like. */
+  notes: string[];
+  /** Whitecap's results are advisory (shown on the study and the report). */
+  caution: string;
+  draftRevisionId: number | null;
+}
+
+export interface StudyListItem {
+  id: number;
+  title: string;
+  createdAt: string;
+  createdBy: string;
+  designKey: string;
+  revision: number;
+  samples: number;
+  draftRevisionId: number | null;
 }

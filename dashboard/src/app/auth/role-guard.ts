@@ -9,6 +9,7 @@ const WHAT: Record<Ability, string> = {
   respond: 'respond to alerts',
   quarantine: 'see the quarantine',
   administer: 'administer Whitecap',
+  design: "use the designer's workbench",
 };
 
 /** Lets a route open only for roles with the ability; others land on the fleet overview, told why. */
