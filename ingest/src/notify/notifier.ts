@@ -266,10 +266,9 @@ function safeChain(rota: WatchRota, now: number): number[] {
   }
 }
 
-function pending(facts: AlertFacts, recipientUserId: number): PendingNotification {
+/** What a message says about an alert, whichever message it is. */
+function described(facts: AlertFacts) {
   return {
-    recipientUserId,
-    alertId: facts.id,
     severity: facts.severity as AlertSeverity,
     rule: facts.rule,
     unitKey: facts.unitKey ?? '—',
@@ -281,19 +280,12 @@ function pending(facts: AlertFacts, recipientUserId: number): PendingNotificatio
   };
 }
 
+function pending(facts: AlertFacts, recipientUserId: number): PendingNotification {
+  return { recipientUserId, alertId: facts.id, ...described(facts) };
+}
+
 function mailAlert(facts: AlertFacts): MailAlert {
-  return {
-    id: facts.id,
-    severity: facts.severity,
-    rule: facts.rule,
-    unitKey: facts.unitKey ?? '—',
-    estimatorKey: facts.estimatorKey ?? '—',
-    siteName: facts.siteName ?? '—',
-    designRevision: facts.designRevision,
-    summary: facts.summary,
-    evidence: facts.evidence,
-    openedAtMs: facts.openedAtMs,
-  };
+  return { id: facts.id, evidence: facts.evidence, ...described(facts) };
 }
 
 function email(person: Person, content: MailContent, alertIds: number[]): NewDelivery {
