@@ -53,6 +53,22 @@ export const routes: Routes = [
         title: 'Quarantine · Whitecap',
       },
       {
+        path: 'workbench',
+        canActivate: [allowedFor('design')],
+        children: [
+          {
+            path: '',
+            loadComponent: () => import('./workbench/workbench').then((m) => m.Workbench),
+            title: 'Workbench · Whitecap',
+          },
+          {
+            path: 'studies/:id',
+            loadComponent: () => import('./workbench/study-page').then((m) => m.StudyPage),
+            title: 'Retune study · Whitecap',
+          },
+        ],
+      },
+      {
         path: 'admin',
         canActivate: [allowedFor('administer')],
         loadComponent: () => import('./admin/admin').then((m) => m.Admin),

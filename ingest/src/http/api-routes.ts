@@ -21,6 +21,7 @@ import { NotifyRepository } from '../notify/notify-repository';
 import { notifyRoutes } from '../notify/notify-routes';
 import { RotaService } from '../notify/rota-service';
 import { usersRoutes } from '../users/users-routes';
+import { workbenchRoutes } from '../workbench/workbench-routes';
 import type { RouteDef } from './route-table';
 
 export interface ApiSettings {
@@ -48,6 +49,7 @@ export function apiRoutes(knex: Knex, events: ServiceEvents, clock: Clock, setti
     ...designsRoutes(knex),
     ...usersRoutes(new UsersRepository(knex)),
     ...notifyRoutes(new NotifyRepository(knex), new RotaService(new NotifyRepository(knex), clock)),
+    ...workbenchRoutes(knex),
     ...eventsRoutes(events),
   ];
 }

@@ -25,6 +25,7 @@ const NAV: NavItem[] = [
   { path: '/rota', label: 'Watch rota', icon: 'event_repeat', ability: 'read' },
   { path: '/notifications', label: 'Notifications', icon: 'forward_to_inbox', ability: 'respond' },
   { path: '/quarantine', label: 'Quarantine', icon: 'gpp_maybe', ability: 'quarantine' },
+  { path: '/workbench', label: 'Workbench', icon: 'tune', ability: 'design' },
   { path: '/admin', label: 'Administration', icon: 'admin_panel_settings', ability: 'administer' },
 ];
 

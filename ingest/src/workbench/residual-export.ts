@@ -1,0 +1,100 @@
+// Residual export: rows from the database cursor turned into CSV or a JSON array, a
+// chunk of about 64 KB at a time. The transform holds back nothing but the chunk it is
+// filling, so memory stays flat however many rows pass (docs/residual-export.md).
+import { Transform, type TransformCallback } from 'node:stream';
+
+export type ExportFormat = 'csv' | 'json';
+
+/** What each estimator id writes into its rows. */
+export interface ExportEstimator {
+  unitKey: string;
+  key: string;
+}
+
+/** A cursor row: [estimator_id, seq, t (RFC 3339), nis (text), nu (little-endian float32 × m)]. */
+export type ExportRow = [number, number, string, string, Buffer];
+
+const CHUNK = 64 * 1024;
+const NUMBER = /^-?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?$/;
+
+/** The shortest decimal that reads back as the same float32 (6 to 9 significant digits). */
+export function float32Text(x: number): string {
+  if (!Number.isFinite(x)) return '';
+  if (x === 0) return '0';
+  for (let digits = 6; digits < 9; digits++) {
+    const text = x.toPrecision(digits);
+    if (Math.fround(Number(text)) === x) return String(Number(text));
+  }
+  return String(Number(x.toPrecision(9)));
+}
+
+/** A CSV field (RFC 4180): quoted when it holds a comma, a quote or a line break. */
+export function csvField(s: string): string {
+  return /[",\r\n]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s;
+}
+
+/** estimator_id,unit,estimator,seq,t,nis,nu_1..nu_m */
+export function csvHeader(m: number): string {
+  return ['estimator_id', 'unit', 'estimator', 'seq', 't', 'nis', ...Array.from({ length: m }, (_, i) => `nu_${i + 1}`)].join(',') + '\r\n';
+}
+
+function nuValues(nu: Buffer): string[] {
+  const out: string[] = [];
+  for (let j = 0; 4 * j + 3 < nu.length; j++) out.push(float32Text(nu.readFloatLE(4 * j)));
+  return out;
+}
+
+/**
+ * Cursor rows → text. CSV: the header, then one line per sample, nu_j columns left
+ * empty past an estimator's own m. JSON: `[` row objects separated by `,\n` `]`.
+ */
+export class ResidualFormatter extends Transform {
+  private buffer = '';
+  private first = true;
+  private readonly prefix: Map<number, string>;
+
+  constructor(
+    private readonly format: ExportFormat,
+    estimators: ReadonlyMap<number, ExportEstimator>,
+    private readonly m: number,
+  ) {
+    super({ writableObjectMode: true, readableObjectMode: false, writableHighWaterMark: 1000 });
+    // The fixed leading fields of each estimator, formatted once.
+    this.prefix = new Map(
+      [...estimators].map(([id, e]) => [
+        id,
+        format === 'csv'
+          ? `${id},${csvField(e.unitKey)},${csvField(e.key)},`
+          : `{"estimatorId":${id},"unit":${JSON.stringify(e.unitKey)},"estimator":${JSON.stringify(e.key)},`,
+      ]),
+    );
+    // The header (or the opening bracket) goes out at once, so the response starts before the first row.
+    this.push(format === 'csv' ? csvHeader(m) : '[');
+  }
+
+  override _transform(row: ExportRow, _enc: BufferEncoding, done: TransformCallback): void {
+    const [id, seq, t, nis, nu] = row;
+    const prefix = this.prefix.get(Number(id)) ?? '';
+    const values = nuValues(nu);
+    if (this.format === 'csv') {
+      while (values.length < this.m) values.push('');
+      this.buffer += `${prefix}${seq},${t},${nis},${values.join(',')}\r\n`;
+    } else {
+      const nisJson = NUMBER.test(nis) ? nis : 'null';
+      this.buffer += `${this.first ? '\n' : ',\n'}${prefix}"seq":${seq},"t":"${t}","nis":${nisJson},"nu":[${values.map((v) => v || 'null').join(',')}]}`;
+      this.first = false;
+    }
+    if (this.buffer.length >= CHUNK) {
+      this.push(this.buffer);
+      this.buffer = '';
+    }
+    done();
+  }
+
+  override _flush(done: TransformCallback): void {
+    if (this.format === 'json') this.buffer += this.first ? ']\n' : '\n]\n';
+    if (this.buffer) this.push(this.buffer);
+    this.buffer = '';
+    done();
+  }
+}
