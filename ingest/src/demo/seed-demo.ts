@@ -1,11 +1,12 @@
 // Seeds the demo scenario. Idempotent: a second run changes nothing that is there.
 import bcrypt from 'bcryptjs';
 import type { Knex } from 'knex';
+import { lqr } from '../../../shared/src/design/gains';
 import { hashDeviceSecret } from '../broker/device-auth';
 import { demoDesigns, demoDeviceSecret, demoSites, demoUnits, demoUsers } from './saltmarsh';
 
 /** A discrete-time model for a design revision (dt = 1 s), stored as plain arrays. */
-function demoModel(designKey: string, q: number): Record<string, number[][]> {
+function demoModel(designKey: string, q: number): Record<string, number[][] | number> {
   if (designKey === 'tractor-position') {
     // Constant velocity in x and y: state [x, y, vx, vy]; white-noise acceleration.
     const A = [
@@ -24,7 +25,12 @@ function demoModel(designKey: string, q: number): Record<string, number[][]> {
       [1, 0],
       [0, 1],
     ];
-    return { A, C, G, Q: [[q, 0], [0, q]], R: [[0.25, 0], [0, 0.25]] };
+    // The tractor's speed controller commands acceleration (B = G, one-second steps) with a
+    // state-feedback gain from LQR weights chosen for the demo (position errors 1 m², speed
+    // 0.1 (m/s)², effort 1 (m/s²)²): the workbench checks the loop with it.
+    const B = G;
+    const { K } = lqr(A, B, [[1, 0, 0, 0], [0, 1, 0, 0], [0, 0, 0.1, 0], [0, 0, 0, 0.1]], [[1, 0], [0, 1]]);
+    return { A, C, G, Q: [[q, 0], [0, q]], R: [[0.25, 0], [0, 0.25]], B, K, dt: 1 };
   }
   if (designKey === 'cabinet-thermal') {
     return { A: [[0.98]], C: [[1]], G: [[1]], Q: [[q]], R: [[0.04]] };
