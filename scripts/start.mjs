@@ -96,6 +96,8 @@ async function main() {
   }
   runTs('ingest/cli/migrate.ts', ['latest'], serviceEnv);
   runTs('ingest/cli/seed.ts', [], serviceEnv);
+  // Read now, before anything is running, for the banner printed once the service answers.
+  const signIns = spawnSync(...tsNode('ingest/cli/demo-sign-ins.ts'), { cwd: root, encoding: 'utf8' }).stdout.trimEnd();
   ensureDashboardBuilt(log);
 
   const service = startChild(...tsNode('ingest/main.ts', [], SERVICE_NODE_FLAGS), serviceEnv);
@@ -114,7 +116,6 @@ async function main() {
     children.push(sim);
   }
 
-  const signIns = spawnSync(...tsNode('ingest/cli/demo-sign-ins.ts'), { cwd: root, encoding: 'utf8' }).stdout.trimEnd();
   console.log(
     [
       '',
