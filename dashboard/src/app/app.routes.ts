@@ -66,6 +66,7 @@ export const routes: Routes = [
             loadComponent: () => import('./workbench/study-page').then((m) => m.StudyPage),
             title: 'Retune study · Whitecap',
           },
+          { path: 'designs', loadChildren: () => import('./workbench/revisions/revision-routes').then((m) => m.revisionRoutes) },
         ],
       },
       {

@@ -22,6 +22,7 @@ import { notifyRoutes } from '../notify/notify-routes';
 import { RotaService } from '../notify/rota-service';
 import { usersRoutes } from '../users/users-routes';
 import { workbenchRoutes } from '../workbench/workbench-routes';
+import { designRevisionsRoutes } from '../workbench/design-revisions-routes';
 import type { RouteDef } from './route-table';
 
 export interface ApiSettings {
@@ -50,6 +51,7 @@ export function apiRoutes(knex: Knex, events: ServiceEvents, clock: Clock, setti
     ...usersRoutes(new UsersRepository(knex)),
     ...notifyRoutes(new NotifyRepository(knex), new RotaService(new NotifyRepository(knex), clock)),
     ...workbenchRoutes(knex),
+    ...designRevisionsRoutes(knex),
     ...eventsRoutes(events),
   ];
 }

@@ -1,5 +1,6 @@
 import { ChangeDetectionStrategy, Component, computed, inject } from '@angular/core';
 import { toSignal } from '@angular/core/rxjs-interop';
+import { RouterLink } from '@angular/router';
 import { Subject, startWith, switchMap } from 'rxjs';
 import type { DesignSummary } from '../../../../shared/src/api/api-types';
 import { foldLoad, initialLoad, loadSteps } from '../feedback/load-state';
@@ -13,7 +14,7 @@ import { WorkbenchApi } from './workbench-api';
 /** The designer's workbench: start a retune study, export field residuals, open saved studies. */
 @Component({
   selector: 'wc-workbench',
-  imports: [Notice, StudyForm, ResidualExport, StudyList],
+  imports: [RouterLink, Notice, StudyForm, ResidualExport, StudyList],
   template: `
     <header class="page-head">
       <h1>Workbench</h1>
@@ -21,6 +22,7 @@ import { WorkbenchApi } from './workbench-api';
         From field residuals to a proposed retune: estimate the noise your estimators really see, compare the gain it implies
         with the one in service, and check the control loop before anything reaches a machine.
       </p>
+      <p class="sub"><a routerLink="/workbench/designs">Design registry</a>: the designs, their revisions, and new revisions by form or JSON file.</p>
     </header>
     @if (designs().error; as e) {
       <wc-notice kind="error" [message]="e" retryLabel="Retry now" (retry)="retry()" />
@@ -46,6 +48,7 @@ import { WorkbenchApi } from './workbench-api';
     :host { display: flex; flex-direction: column; gap: 16px; }
     h1 { margin: 0; font: var(--mat-sys-headline-medium); }
     .sub { margin: 4px 0 0; color: var(--mat-sys-on-surface-variant); max-width: 110ch; }
+    .sub a { color: var(--mat-sys-primary); font-weight: 500; }
     .columns {
       display: grid;
       grid-template-columns: repeat(auto-fit, minmax(min(100%, 520px), 1fr));
