@@ -17,13 +17,17 @@ export type ExportRow = [number, number, string, string, Buffer];
 const CHUNK = 64 * 1024;
 const NUMBER = /^-?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?$/;
 
-/** The shortest decimal that reads back as the same float32 (6 to 9 significant digits). */
+/**
+ * A short decimal that reads back as the same float32 (7 to 9 significant digits; 9
+ * always suffice). Starting at 7 rather than 6 costs nothing in length (trailing zeros
+ * drop out: 0.3000000 prints as 0.3) and saves a third of the time on a hot path.
+ */
 export function float32Text(x: number): string {
   if (!Number.isFinite(x)) return '';
   if (x === 0) return '0';
-  for (let digits = 6; digits < 9; digits++) {
-    const text = x.toPrecision(digits);
-    if (Math.fround(Number(text)) === x) return String(Number(text));
+  for (let digits = 7; digits < 9; digits++) {
+    const n = Number(x.toPrecision(digits));
+    if (Math.fround(n) === x) return String(n);
   }
   return String(Number(x.toPrecision(9)));
 }

@@ -3,6 +3,7 @@
 // runs, compute the study (retune-analysis.ts), save it; and turn a saved study into a
 // draft design revision.
 import type { Knex } from 'knex';
+import { inverse, Matrix } from 'ml-matrix';
 import type { RetuneStudy, StudyRequest, User } from '../../../shared/src/api/api-types';
 import { HttpProblem } from '../http/problem';
 import { checkModel, retuneNumbers, StudyRefused, type DesignModel } from './retune-analysis';
@@ -87,30 +88,73 @@ export class StudyService {
     return { estimators, revisionId };
   }
 
+  /** The uploads of a request, all on one design revision (else 400). */
+  private async resolveUploads(ids: readonly number[]): Promise<{ uploads: { id: number; name: string; designRevisionId: number }[]; revisionId: number }> {
+    const unique = [...new Set(ids)];
+    const uploads = await this.repo.uploadsByIds(unique);
+    const missing = unique.filter((id) => !uploads.some((u) => u.id === id));
+    if (missing.length) throw new HttpProblem(400, 'unknown-uploads', 'Unknown uploads', `There is no residual upload with id ${missing.join(', ')}.`, { uploadIds: missing });
+    const revisions = [...new Set(uploads.map((u) => u.designRevisionId))];
+    if (revisions.length > 1) {
+      throw new HttpProblem(400, 'mixed-design-revisions', 'Uploads on different design revisions', `A study needs uploads that all belong to one design revision; these belong to revisions with ids ${revisions.join(', ')}.`);
+    }
+    return { uploads, revisionId: revisions[0] };
+  }
+
   async create(user: User, request: StudyRequest): Promise<RetuneStudy> {
     const from = new Date(request.from);
     const to = new Date(request.to);
-    const { estimators, revisionId } = await this.resolveEstimators(request);
+    let estimators: EstimatorRow[] = [];
+    let revisionId: number;
+    let uploads: { id: number; name: string; designRevisionId: number }[] = [];
+    if (request.uploadIds?.length) {
+      ({ uploads, revisionId } = await this.resolveUploads(request.uploadIds));
+      if (request.designRevisionId !== undefined && request.designRevisionId !== revisionId) {
+        throw new HttpProblem(400, 'mixed-design-revisions', 'Uploads on another design revision', `The uploads belong to design revision ${revisionId}, not ${request.designRevisionId}.`);
+      }
+      if (request.estimatorIds?.length) {
+        estimators = (await this.resolveEstimators({ estimatorIds: request.estimatorIds, designRevisionId: revisionId })).estimators;
+      } else if (request.designRevisionId !== undefined) {
+        estimators = await this.repo.estimatorsOnRevision(revisionId);
+      }
+    } else {
+      ({ estimators, revisionId } = await this.resolveEstimators(request));
+    }
     const revision = (await this.repo.revision(revisionId))!;
     const m = revision.measurementDim;
     const model = revision.model as unknown as DesignModel;
     // A design no study can use is refused before any sample is read.
     refusedAsProblem(() => checkModel(model, m));
 
-    const { samples: perEstimator, capped, total } = await this.readSamples(estimators, from, to, m);
-    if (total === 0) {
-      throw new HttpProblem(
-        422,
-        'no-samples',
-        'No samples in the window',
-        `None of the ${estimators.length} estimator${estimators.length === 1 ? '' : 's'} stored innovation samples between ${from.toISOString()} and ${to.toISOString()}.`,
-      );
-    }
+    const { samples: perEstimator, capped, total: fieldTotal } = estimators.length
+      ? await this.readSamples(estimators, from, to, m)
+      : { samples: new Map<number, EstimatorSamples & { nisSum: number }>(), capped: false, total: 0 };
     const segments: Float64Array[][] = [];
     let nisSum = 0;
     for (const s of perEstimator.values()) {
       for (const segment of runs(s)) segments.push(segment);
       nisSum += s.nisSum;
+    }
+    // Uploads: each one is cut into unbroken runs of consecutive seq; they carry no NIS.
+    const uploadSegments: Float64Array[][] = [];
+    const uploadCounts: { id: number; name: string; samples: number }[] = [];
+    for (const u of uploads) {
+      const rows = await this.repo.uploadSamples(u.id);
+      for (const seg of runs({ seq: rows.map((r) => r.seq), t: [], nu: rows.map((r) => Float64Array.from(r.nu)) })) uploadSegments.push(seg);
+      uploadCounts.push({ id: u.id, name: u.name, samples: rows.length });
+    }
+    const uploadTotal = uploadCounts.reduce((a, u) => a + u.samples, 0);
+    segments.push(...uploadSegments);
+    const total = fieldTotal + uploadTotal;
+    if (total === 0) {
+      throw new HttpProblem(
+        422,
+        'no-samples',
+        'No samples in the window',
+        uploads.length
+          ? 'Neither the uploads nor the estimators gave any innovation samples.'
+          : `None of the ${estimators.length} estimator${estimators.length === 1 ? '' : 's'} stored innovation samples between ${from.toISOString()} and ${to.toISOString()}.`,
+      );
     }
 
     const numbers = refusedAsProblem(() =>
@@ -124,6 +168,27 @@ export class StudyService {
     );
 
     const notes = [...numbers.notes];
+    if (uploadSegments.length) {
+      // Uploaded samples have no stored NIS: νᵀ S⁻¹ ν with S the filter in use's predicted innovation covariance.
+      const Sinv = inverse(new Matrix(numbers.current.S));
+      let uploadNis = 0;
+      for (const seg of uploadSegments) for (const nu of seg) uploadNis += quadratic(Sinv, nu);
+      const observed = (nisSum + uploadNis) / total / m;
+      numbers.nis = { ...numbers.nis, observed };
+      const at = notes.findIndex((n) => n.startsWith('The observed NIS'));
+      if (at >= 0) notes.splice(at, 1);
+      const gap = observed / numbers.nis.predictedCurrent - 1;
+      if (Number.isFinite(gap) && Math.abs(gap) > 0.25) {
+        notes.push(
+          `The observed NIS (${observed.toPrecision(3)} per component) differs by ${Math.round(Math.abs(gap) * 100)} % from what the estimated noise predicts for the filter in use ` +
+            `(${numbers.nis.predictedCurrent.toPrecision(3)}): the innovations carry something the model does not, and the estimate deserves suspicion.`,
+        );
+      }
+      notes.push(
+        `${uploadTotal} samples come from ${uploads.length} upload${uploads.length === 1 ? '' : 's'} (${uploads.map((u) => `#${u.id} ${u.name}`).join(', ')}), ` +
+          `in ${uploadSegments.length} unbroken run${uploadSegments.length === 1 ? '' : 's'}; the window does not apply to them, and their NIS is computed from ν and the S of the filter in use (uploads store none).`,
+      );
+    }
     if (capped) {
       notes.push(
         `The window held more than ${this.settings.sampleCap.toLocaleString('en')} samples: the newest ${this.settings.sampleCap.toLocaleString('en')} were used ` +
@@ -132,13 +197,17 @@ export class StudyService {
     }
     const silent = estimators.filter((e) => !(perEstimator.get(e.id)?.t.length ?? 0));
     if (silent.length) notes.push(`No samples in the window from ${silent.map(describe).join(', ')}.`);
-    if (segments.length > estimators.length - silent.length) {
+    if (segments.length - uploadSegments.length > estimators.length - silent.length) {
       notes.push(`The samples form ${segments.length} unbroken runs (split where sequence numbers jump); lagged products never cross a break.`);
     }
 
+    const sources = [
+      ...(estimators.length || !uploads.length ? [`${estimators.length} estimator${estimators.length === 1 ? '' : 's'}`] : []),
+      ...(uploads.length ? [`${uploads.length} upload${uploads.length === 1 ? '' : 's'}`] : []),
+    ].join(' + ');
     const title =
       request.title?.trim() ||
-      `${revision.designKey} r${revision.revision}: ${estimators.length} estimator${estimators.length === 1 ? '' : 's'}, ${from.toISOString().slice(0, 16)}Z to ${to
+      `${revision.designKey} r${revision.revision}: ${sources}, ${from.toISOString().slice(0, 16)}Z to ${to
         .toISOString()
         .slice(0, 16)}Z`;
     const result = {
@@ -151,6 +220,7 @@ export class StudyService {
         measurementDim: m,
       },
       estimators: estimators.map((e) => ({ id: e.id, unitKey: e.unitKey, key: e.key, samples: perEstimator.get(e.id)?.t.length ?? 0 })),
+      ...(uploads.length ? { uploads: uploadCounts } : {}),
       samples: total,
       assumed: numbers.assumed,
       estimated: numbers.estimated,
@@ -287,6 +357,7 @@ export function toStudy(row: StudyRow): RetuneStudy {
     request: row.request as StudyRequest,
     design: r.design,
     estimators: r.estimators,
+    ...(r.uploads ? { uploads: r.uploads } : {}),
     samples: r.samples,
     assumed: r.assumed,
     estimated: r.estimated,
@@ -299,4 +370,11 @@ export function toStudy(row: StudyRow): RetuneStudy {
     caution: STUDY_CAUTION,
     draftRevisionId: row.draft_revision_id,
   };
+}
+
+/** νᵀ M ν */
+function quadratic(M: Matrix, nu: ArrayLike<number>): number {
+  let sum = 0;
+  for (let i = 0; i < M.rows; i++) for (let j = 0; j < M.columns; j++) sum += nu[i] * M.get(i, j) * nu[j];
+  return sum;
 }

@@ -150,7 +150,7 @@ export class WorkbenchRepository {
     const connection = (await this.knex.client.acquireConnection()) as PoolClient;
     let rows: QueryStream;
     try {
-      rows = connection.query(new QueryStream(sql, bindings as unknown[], { rowMode: 'array', batchSize: 1000, highWaterMark: 1000 }));
+      rows = connection.query(new QueryStream(sql, bindings as unknown[], { rowMode: 'array', batchSize: 5000, highWaterMark: 5000 }));
     } catch (err) {
       await this.knex.client.releaseConnection(connection);
       throw err;
@@ -168,6 +168,18 @@ export class WorkbenchRepository {
       await this.knex.client.releaseConnection(connection);
     };
     return { rows, release };
+  }
+
+  /** Residual uploads by id with their design revision. */
+  async uploadsByIds(ids: readonly number[]): Promise<{ id: number; name: string; designRevisionId: number }[]> {
+    const rows = await this.knex('residual_uploads').whereIn('id', ids).orderBy('id').select('id', 'name', 'design_revision_id');
+    return rows.map((r) => ({ id: Number(r.id), name: r.name, designRevisionId: Number(r.design_revision_id) }));
+  }
+
+  /** An upload's samples in sequence order: seq and nu (real[] → numbers). */
+  async uploadSamples(uploadId: number): Promise<{ seq: number; nu: number[] }[]> {
+    const rows = await this.knex('residual_upload_samples').where('upload_id', uploadId).orderBy('seq').select('seq', 'nu');
+    return rows.map((r) => ({ seq: Number(r.seq), nu: (r.nu as (number | string)[]).map(Number) }));
   }
 
   async insertStudy(s: { title: string; createdBy: number; request: unknown; result: unknown; designRevisionId: number }): Promise<number> {

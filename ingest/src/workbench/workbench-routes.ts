@@ -7,6 +7,7 @@ import { z } from 'zod';
 import type { RetuneStudy, StudyListItem } from '../../../shared/src/api/api-types';
 import { route, type RouteDef } from '../http/route-table';
 import { ExportService } from './export-service';
+import { residualUploadRoutes } from './residual-upload-routes';
 import { StudyService, type DraftRevisionCreated } from './study-service';
 import { WorkbenchRepository } from './workbench-repository';
 
@@ -54,6 +55,7 @@ const studyBody = z
   .object({
     estimatorIds: z.array(id()).min(1).max(MAX_ESTIMATORS).optional(),
     designRevisionId: id().optional(),
+    uploadIds: z.array(id()).min(1).max(50).optional(),
     from: instant,
     to: instant,
     lags: z.number().int().min(2).max(60).optional(),
@@ -70,8 +72,8 @@ const studyBody = z
     title: z.string().trim().max(200).optional(),
   })
   .superRefine((b, ctx) => {
-    if (!b.estimatorIds?.length && b.designRevisionId === undefined) {
-      ctx.addIssue({ code: 'custom', path: ['estimatorIds'], message: 'give estimatorIds, or designRevisionId for every estimator on that revision' });
+    if (!b.estimatorIds?.length && b.designRevisionId === undefined && !b.uploadIds?.length) {
+      ctx.addIssue({ code: 'custom', path: ['estimatorIds'], message: 'give estimatorIds, designRevisionId for every estimator on that revision, or uploadIds' });
     }
     checkWindow(b, ctx);
   });
@@ -87,6 +89,7 @@ export function workbenchRoutes(knex: Knex): RouteDef[] {
   const exports = new ExportService(repo);
   const studies = new StudyService(knex, repo);
   return [
+    ...residualUploadRoutes(knex, repo),
     route({
       method: 'get',
       path: '/residuals',

@@ -425,6 +425,8 @@ export interface StudyRequest {
   /** The estimators whose residuals to use; or all estimators on one design revision (a cohort). */
   estimatorIds?: number[];
   designRevisionId?: number;
+  /** Residual uploads (all on one design revision) to use, each as one or more unbroken runs; the window does not apply to them. */
+  uploadIds?: number[];
   /** The window, ISO 8601. */
   from: string;
   to: string;
@@ -466,6 +468,8 @@ export interface RetuneStudy {
   request: StudyRequest;
   design: { designId: number; designKey: string; revisionId: number; revision: number; stateDim: number; measurementDim: number };
   estimators: { id: number; unitKey: string; key: string; samples: number }[];
+  /** Residual uploads the study used (absent on studies of field data alone). */
+  uploads?: { id: number; name: string; samples: number }[];
   samples: number;
   assumed: { Q: number[][]; R: number[][] };
   estimated: {
@@ -507,4 +511,26 @@ export interface StudyListItem {
   revision: number;
   samples: number;
   draftRevisionId: number | null;
+}
+
+/** A logged innovation file a designer uploaded (POST /api/residual-uploads, text/csv). */
+export interface ResidualUpload {
+  id: number;
+  name: string;
+  designRevisionId: number;
+  designKey: string;
+  revision: number;
+  measurementDim: number;
+  createdAt: string;
+  createdBy: string;
+  rowsAccepted: number;
+  rowsRejected: number;
+}
+
+/** What an upload answers (201): the counts and the first 100 rejected rows with their reasons. */
+export interface UploadReport {
+  id: number;
+  rowsAccepted: number;
+  rowsRejected: number;
+  rejected: { line: number; reason: string }[];
 }

@@ -58,6 +58,9 @@ describe('StudyForm', () => {
     fixture.componentRef.setInput('cohorts', cohortGroups(designs));
     loader = TestbedHarnessEnvironment.loader(fixture);
     await fixture.whenStable();
+    // The form lists uploaded runs as a source: none here.
+    for (const r of http.match('/api/residual-uploads')) r.flush([]);
+    await fixture.whenStable();
   });
 
   afterEach(() => http.verify());

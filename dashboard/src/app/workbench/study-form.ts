@@ -1,3 +1,6 @@
+import { toSignal } from '@angular/core/rxjs-interop';
+import { catchError, of } from 'rxjs';
+import type { ResidualUpload } from '../../../../shared/src/api/api-types';
 import { ChangeDetectionStrategy, Component, DestroyRef, computed, inject, input, signal } from '@angular/core';
 import { MatButtonModule } from '@angular/material/button';
 import { MatButtonToggleModule } from '@angular/material/button-toggle';
@@ -57,6 +60,12 @@ export class StudyForm {
   protected readonly estimateQ = signal<CovarianceStructure>('diagonal');
   protected readonly estimateR = signal<CovarianceStructure>('diagonal');
   protected readonly title = signal('');
+  protected readonly uploadIds = signal<number[]>([]);
+  protected readonly uploads = toSignal(this.api.residualUploads().pipe(catchError(() => of([] as ResidualUpload[]))), { initialValue: [] as ResidualUpload[] });
+
+  protected chooseUploads(select: HTMLSelectElement): void {
+    this.uploadIds.set(Array.from(select.selectedOptions).map((o) => Number(o.value)));
+  }
 
   protected readonly problems = signal<string[]>([]);
   protected readonly running = signal(false);
@@ -96,6 +105,7 @@ export class StudyForm {
       source: this.source(),
       revisionId: this.revisionId(),
       picked: this.picked(),
+      uploadIds: this.uploadIds(),
       window: this.window(),
       lags: this.lags(),
       estimateQ: this.estimateQ(),

@@ -4,13 +4,15 @@ import type { StudyRequest } from '../../../../shared/src/api/api-types';
 import type { PickedEstimator } from './estimator-picker';
 import { windowEnds, type StudyWindow } from './study-window';
 
-export type StudySource = 'cohort' | 'estimators';
+export type StudySource = 'cohort' | 'estimators' | 'uploads';
 export type CovarianceStructure = 'diagonal' | 'full';
 
 export interface StudyDraft {
   source: StudySource;
   revisionId: number | null;
   picked: readonly PickedEstimator[];
+  /** Residual uploads chosen with source 'uploads'. */
+  uploadIds?: readonly number[];
   window: StudyWindow | null;
   /** As typed. */
   lags: string;
@@ -36,6 +38,7 @@ export function studyRequest(draft: StudyDraft, now = Date.now()): StudyRequestC
       problems.push(`The chosen estimators run ${[...revisions].join(', ')}; a study covers one design revision, so keep the estimators of one.`);
     }
   }
+  if (draft.source === 'uploads' && !draft.uploadIds?.length) problems.push('Choose at least one upload.');
   if (!draft.window) problems.push('Fix the custom window, or pick a preset.');
   const lagsText = draft.lags.trim();
   const lags = lagsText === '' ? DEFAULT_LAGS : Number(lagsText);
@@ -53,6 +56,7 @@ export function studyRequest(draft: StudyDraft, now = Date.now()): StudyRequestC
     estimateR: draft.estimateR,
   };
   if (draft.source === 'cohort') request.designRevisionId = draft.revisionId!;
+  else if (draft.source === 'uploads') request.uploadIds = [...draft.uploadIds!];
   else request.estimatorIds = draft.picked.map((e) => e.id);
   if (title) request.title = title;
   return { ok: true, request };

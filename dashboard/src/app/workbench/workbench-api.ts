@@ -6,6 +6,7 @@ import type {
   EstimatorListItem,
   FleetResponse,
   Page,
+  ResidualUpload,
   RetuneStudy,
   StudyListItem,
   StudyRequest,
@@ -42,6 +43,10 @@ export class WorkbenchApi {
       .set('limit', limit)
       .set('offset', offset);
     return this.http.get<FleetResponse>('/api/fleet', { params });
+  }
+
+  residualUploads(): Observable<ResidualUpload[]> {
+    return this.http.get<ResidualUpload[]>('/api/residual-uploads');
   }
 
   studies(): Observable<StudyListItem[]> {

@@ -9,12 +9,13 @@ import { cohortGroups } from './cohorts';
 import { ResidualExport } from './residual-export';
 import { StudyForm } from './study-form';
 import { StudyList } from './study-list';
+import { ResidualUploadPanel } from './upload/residual-upload-panel';
 import { WorkbenchApi } from './workbench-api';
 
 /** The designer's workbench: start a retune study, export field residuals, open saved studies. */
 @Component({
   selector: 'wc-workbench',
-  imports: [RouterLink, Notice, StudyForm, ResidualExport, StudyList],
+  imports: [RouterLink, Notice, StudyForm, ResidualExport, StudyList, ResidualUploadPanel],
   template: `
     <header class="page-head">
       <h1>Workbench</h1>
@@ -37,6 +38,9 @@ import { WorkbenchApi } from './workbench-api';
       </section>
       <section class="card">
         <wc-residual-export [cohorts]="cohortOptions()" />
+      </section>
+      <section class="card">
+        <wc-residual-upload-panel [cohorts]="cohortOptions()" />
       </section>
     </div>
     <section class="card" aria-labelledby="studies-title">
