@@ -1,7 +1,12 @@
 // Residual upload end to end: a designer uploads a logged innovation file (made here by
 // the simulator's plant and filter), the service checks it row by row, stores the good
 // rows, reports the bad ones, and a retune study runs on the upload alone.
+import http from 'node:http';
+import { Readable } from 'node:stream';
 import knexFactory, { type Knex } from 'knex';
+import { ResidualUploadRepository } from '../../ingest/src/workbench/residual-upload-repository';
+import { ResidualUploadService } from '../../ingest/src/workbench/residual-upload-service';
+import { WorkbenchRepository } from '../../ingest/src/workbench/workbench-repository';
 import type { ResidualUpload, RetuneStudy, UploadReport } from '../../shared/src/api/api-types';
 import { PlantFilter, plantDesign } from '../../simulators/src/index';
 import { api, signIn, type Session } from '../support/api';
@@ -100,6 +105,35 @@ describe('residual upload', () => {
     });
     expect(json.status).toBe(415);
     expect((await api(service.url, viewer, '/residual-uploads')).status).toBe(403);
+    expect(Number((await knex('residual_uploads').count<{ count: string }[]>('* as count'))[0].count)).toBe(before);
+  });
+
+  it('refuses a file over the size limit with a clear 413, whether its length is declared or only counted, and stores nothing', async () => {
+    const before = Number((await knex('residual_uploads').count<{ count: string }[]>('* as count'))[0].count);
+    // Over HTTP: the declared length is over 50 MB; the answer comes before the body is sent.
+    const big = await new Promise<{ status: number; body: string }>((resolve, reject) => {
+      const req = http.request(
+        `${service.url}/api/residual-uploads?designRevisionId=${revision2Id}&name=big`,
+        { method: 'POST', headers: { authorization: `Bearer ${designer.accessToken}`, 'content-type': 'text/csv', 'content-length': String(51 * 1024 * 1024) } },
+        (res) => {
+          let body = '';
+          res.on('data', (d) => (body += d));
+          res.on('end', () => {
+            resolve({ status: res.statusCode ?? 0, body });
+            req.destroy();
+          });
+        },
+      );
+      req.on('error', reject);
+      req.write('seq,t,nu_1,nu_2\r\n');
+    });
+    expect(big.status).toBe(413);
+    expect(JSON.parse(big.body).detail).toMatch(/at most 50 MB/);
+    // The running count, for a body whose length is not declared (chunked): the same service with a 4 KB limit.
+    const user = { id: designer.user.id, email: designer.user.email, displayName: designer.user.displayName, role: designer.user.role };
+    const service4k = new ResidualUploadService(knex, new ResidualUploadRepository(knex), new WorkbenchRepository(knex), 4096);
+    const rows = ['seq,t,nu_1,nu_2', ...Array.from({ length: 500 }, (_, i) => `${i + 1},,0.1,0.2`)].join('\r\n');
+    await expect(service4k.upload(user, { designRevisionId: revision2Id, name: 'chunked' }, Readable.from([rows]))).rejects.toMatchObject({ status: 413 });
     expect(Number((await knex('residual_uploads').count<{ count: string }[]>('* as count'))[0].count)).toBe(before);
   });
 
