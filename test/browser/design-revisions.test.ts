@@ -8,7 +8,7 @@ import path from 'node:path';
 import type { Browser, Page } from 'playwright-core';
 import { STUDY_CAUTION } from '../../ingest/src/workbench/study-service';
 import { api, signIn } from '../support/api';
-import { launchBrowser, screenshotDir } from '../support/browser';
+import { launchBrowser, screenshotDir, signInOnPage } from '../support/browser';
 import { createTestDatabase, type TestDatabase } from '../support/database';
 import { runCli, startService, type ServiceHandle } from '../support/service';
 
@@ -22,14 +22,6 @@ const tractor = {
   R: [[0.25, 0], [0, 0.25]],
   dt: 1,
 };
-
-async function signInOnPage(page: Page, url: string, email: string, password: string): Promise<void> {
-  await page.goto(`${url}/`, { waitUntil: 'networkidle' });
-  await page.getByLabel('E-mail').fill(email);
-  await page.getByLabel('Password').fill(password);
-  await page.getByRole('button', { name: 'Sign in' }).click();
-  await page.getByRole('heading', { name: 'Fleet', exact: true }).waitFor();
-}
 
 describe('design revisions in the dashboard', () => {
   let db: TestDatabase;

@@ -11,21 +11,13 @@ import { DateTime } from 'luxon';
 import type { Browser, BrowserContext, Page } from 'playwright-core';
 import type { Page as ListPage, RotaSummary, User, WebhookEndpoint } from '../../shared/src/api/api-types';
 import { api, signIn, type Session } from '../support/api';
-import { launchBrowser, screenshotDir } from '../support/browser';
+import { launchBrowser, screenshotDir, signInOnPage } from '../support/browser';
 import { createTestDatabase, type TestDatabase } from '../support/database';
 import { runCli, startService, type ServiceHandle } from '../support/service';
 
 jest.setTimeout(180_000);
 
 const DEMO_ROTA = 'Saltmarsh Terminal watch';
-
-async function signInOnPage(page: Page, url: string, email: string, password: string): Promise<void> {
-  await page.goto(`${url}/`, { waitUntil: 'networkidle' });
-  await page.getByLabel('E-mail').fill(email);
-  await page.getByLabel('Password').fill(password);
-  await page.getByRole('button', { name: 'Sign in' }).click();
-  await page.getByRole('heading', { name: 'Fleet', exact: true }).waitFor();
-}
 
 describe('notifications in the dashboard', () => {
   let db: TestDatabase;

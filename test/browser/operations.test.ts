@@ -7,7 +7,7 @@ import { demoDeviceSecret } from '../../ingest/src/demo/saltmarsh';
 import type { AlertList } from '../../shared/src/api/api-types';
 import { publishSamples } from '../../simulators/src/index';
 import { api, signIn } from '../support/api';
-import { launchBrowser, screenshotDir } from '../support/browser';
+import { launchBrowser, screenshotDir, signInOnPage } from '../support/browser';
 import { createTestDatabase, type TestDatabase } from '../support/database';
 import { runCli, startService, type ServiceHandle } from '../support/service';
 
@@ -21,14 +21,6 @@ async function waitFor<T>(what: string, probe: () => Promise<T | null | undefine
     await new Promise((r) => setTimeout(r, 200));
   }
   throw new Error(`timed out waiting for ${what}`);
-}
-
-async function signInOnPage(page: Page, url: string, email: string, password: string): Promise<void> {
-  await page.goto(`${url}/`, { waitUntil: 'networkidle' });
-  await page.getByLabel('E-mail').fill(email);
-  await page.getByLabel('Password').fill(password);
-  await page.getByRole('button', { name: 'Sign in' }).click();
-  await page.getByRole('heading', { name: 'Fleet', exact: true }).waitFor();
 }
 
 describe('operations in the dashboard', () => {
