@@ -58,6 +58,7 @@ interface Options {
   pgStatements: boolean;
   maxInFlightPerUnit: number;
   serviceEnv: Record<string, string>;
+  nodeFlags: string[];
   pgSettings: Record<string, string>;
   write: boolean;
   quick: boolean;
@@ -85,6 +86,8 @@ const HELP = `npm run bench:ingest -- [options]
   --profile           run the service with --cpu-prof and summarise where its CPU went
   --no-pg-statements  do not load pg_stat_statements (on by default: where PostgreSQL's time goes)
   --max-in-flight N   messages a unit may have awaiting PUBACK before it holds back (default 1000)
+  --node-flag FLAG    an extra Node.js flag for the service (repeatable), e.g. --trace-gc; its
+                      output is kept in .output/bench/ingest-service.log
   --service-env K=V   an extra environment variable for the service (repeatable), e.g. WHITECAP_MAX_BATCH_SAMPLES=10000
   --pg K=V            an extra PostgreSQL setting (repeatable)
   --wait-quiet S      on a shared machine: wait up to S s for other processes to use less than
@@ -113,6 +116,7 @@ function parseOptions(argv: string[]): Options {
     pgStatements: true,
     maxInFlightPerUnit: 1000,
     serviceEnv: {},
+    nodeFlags: [],
     pgSettings: {},
     write: true,
     quick: false,
@@ -189,6 +193,9 @@ function parseOptions(argv: string[]): Options {
         break;
       case '--max-in-flight':
         o.maxInFlightPerUnit = Math.round(num(a, next(), 1));
+        break;
+      case '--node-flag':
+        o.nodeFlags.push(next());
         break;
       case '--service-env': {
         const [k, v] = kv(a, next());
@@ -504,7 +511,7 @@ async function main(): Promise<void> {
   const profileDir = path.join(pgRoot, 'profile');
   const serviceLog = path.join(pgRoot, 'service.log');
   const logStream = fs.createWriteStream(serviceLog);
-  service = spawn(process.execPath, [...SERVICE_NODE_FLAGS, ...(o.profile ? ['--cpu-prof', `--cpu-prof-dir=${profileDir}`] : []), '--import', 'tsx', 'ingest/main.ts'], {
+  service = spawn(process.execPath, [...SERVICE_NODE_FLAGS, ...o.nodeFlags, ...(o.profile ? ['--cpu-prof', `--cpu-prof-dir=${profileDir}`] : []), '--import', 'tsx', 'ingest/main.ts'], {
     cwd: root,
     env: {
       ...process.env,
@@ -836,6 +843,12 @@ async function main(): Promise<void> {
     }
   }
   const serviceLogText = fs.existsSync(serviceLog) ? fs.readFileSync(serviceLog, 'utf8') : '';
+  if (o.nodeFlags.length > 0 && serviceLogText) {
+    const keepDir = path.join(root, '.output', 'bench');
+    fs.mkdirSync(keepDir, { recursive: true });
+    fs.writeFileSync(path.join(keepDir, 'ingest-service.log'), serviceLogText);
+    log(`service output (${o.nodeFlags.join(' ')}): .output/bench/ingest-service.log`);
+  }
   const logLines = serviceLogText.split('\n').filter(Boolean);
   const logMessages = new Map<string, number>();
   for (const line of logLines) {

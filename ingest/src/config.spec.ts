@@ -29,6 +29,12 @@ describe('loadConfig', () => {
     expect(() => loadConfig({ WHITECAP_EXTERNAL_MQTT_URL: 'http://x' })).toThrow(/WHITECAP_EXTERNAL_MQTT_URL/);
   });
 
+  it('writes through WHITECAP_WRITE_LANES lanes (default 2, at most 16)', () => {
+    expect(loadConfig({}).ingest.writeLanes).toBe(2);
+    expect(loadConfig({ WHITECAP_WRITE_LANES: '1' }).ingest.writeLanes).toBe(1);
+    expect(() => loadConfig({ WHITECAP_WRITE_LANES: '17' })).toThrow(/WHITECAP_WRITE_LANES="17": must be at most 16/);
+  });
+
   it('treats an empty variable as unset', () => {
     expect(loadConfig({ WHITECAP_HTTP_PORT: '' }).http.port).toBe(8610);
   });

@@ -48,6 +48,7 @@ const schema = z.object({
   WHITECAP_ROLLUP_RETENTION_DAYS: positiveInt.default(400),
   WHITECAP_MAX_QUEUED_SAMPLES: positiveInt.default(50_000),
   WHITECAP_MAX_BATCH_SAMPLES: positiveInt.default(2000),
+  WHITECAP_WRITE_LANES: positiveInt.max(16, 'must be at most 16').default(2),
   WHITECAP_ALERT_HOLD_MS: z.coerce.number({ error: 'must be a number' }).int('must be a whole number').min(0, 'must be 0 or more').default(60_000),
   WHITECAP_STATUS_EVERY_MS: positiveInt.default(5000),
   WHITECAP_SILENCE_FACTOR: z.coerce.number({ error: 'must be a number' }).min(1, 'must be at least 1').default(10),
@@ -107,6 +108,8 @@ export interface Config {
     /** Samples waiting for the database beyond which the broker stops taking messages. */
     maxQueuedSamples: number;
     maxBatchSamples: number;
+    /** Database write lanes: each its own connection and transactions; a unit always takes the same one. */
+    writeLanes: number;
     alertHoldMs: number;
     statusEveryMs: number;
     silenceFactor: number;
@@ -210,6 +213,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
       rollupRetentionDays: v.WHITECAP_ROLLUP_RETENTION_DAYS,
       maxQueuedSamples: v.WHITECAP_MAX_QUEUED_SAMPLES,
       maxBatchSamples: v.WHITECAP_MAX_BATCH_SAMPLES,
+      writeLanes: v.WHITECAP_WRITE_LANES,
       alertHoldMs: v.WHITECAP_ALERT_HOLD_MS,
       statusEveryMs: v.WHITECAP_STATUS_EVERY_MS,
       silenceFactor: v.WHITECAP_SILENCE_FACTOR,

@@ -53,6 +53,7 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
     pool,
     logger,
     maxBatchSamples: config.ingest.maxBatchSamples,
+    lanes: config.ingest.writeLanes,
     // An external broker hands over one message per commit (see external-subscriber.ts): do not linger.
     lingerMs: config.mqtt.external ? 0 : 20,
     onCommitted: ({ samples, ms: took, phases }) => {

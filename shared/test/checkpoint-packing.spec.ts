@@ -28,6 +28,16 @@ describe('packed checkpoints', () => {
     expect(packFloat64([])).toBe('');
   });
 
+  it('packs to the same base64 as the browser path (btoa over the bytes), and reads both', () => {
+    const values = [0, -0, 1, -1.5, Math.PI, 5e-324, Number.MAX_VALUE, 42];
+    const bytes = new Uint8Array(new Float64Array(values).buffer); // little-endian on x86 and ARM
+    const viaBtoa = btoa(String.fromCharCode(...bytes));
+    expect(packFloat64(values)).toBe(viaBtoa);
+    expect(expectNumberArray(viaBtoa, values.length, 'test').slice(2)).toEqual(values.slice(2));
+    // Characters outside base64 are refused, not skipped.
+    expect(() => expectNumberArray(viaBtoa.slice(0, 8) + '!' + viaBtoa.slice(9), values.length, 'test')).toThrow(/not base64/);
+  });
+
   it('refuses a packed array of the wrong length or not base64', () => {
     expect(() => expectNumberArray(packFloat64([1, 2, 3]), 2, 'test')).toThrow(CheckpointError);
     expect(() => expectNumberArray('###', 1, 'test')).toThrow(CheckpointError);

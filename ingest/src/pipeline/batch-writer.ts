@@ -105,18 +105,94 @@ export interface BatchWriterOptions {
   maxBatchSamples?: number;
   /** How long the first pending item waits for company before a flush (default 20 ms). */
   lingerMs?: number;
+  /**
+   * Write lanes (default 2): each has its own queue, connection and transactions, and a
+   * unit's writes always take the same lane, so one unit's messages commit (and are
+   * acknowledged) in the order they came, while two lanes let PostgreSQL store one batch
+   * as the next is being prepared and sent. Every row a batch upserts (status,
+   * checkpoints, rollups, alerts) belongs to one estimator and so to one unit: lanes
+   * never touch the same rows.
+   */
+  lanes?: number;
   /** Called after each committed batch (for metrics). */
   onCommitted?: (info: { samples: number; quarantined: number; ms: number; phases: CommitPhases }) => void;
 }
 
 const VERDICT_RANK = `array['consistent','marginal','inconsistent','silent']`;
 
+/** Which lane a unit's writes take (FNV-1a over its key). */
+export function laneOf(unitKey: string, lanes: number): number {
+  let h = 0x811c9dc5;
+  for (let i = 0; i < unitKey.length; i++) {
+    h ^= unitKey.charCodeAt(i);
+    h = Math.imul(h, 0x01000193);
+  }
+  return (h >>> 0) % lanes;
+}
+
 export class BatchWriter {
+  private readonly lanes: WriteLane[];
+
+  constructor(options: BatchWriterOptions) {
+    const n = Math.max(1, Math.floor(options.lanes ?? 2));
+    const partitions = new PartitionManager();
+    this.lanes = Array.from({ length: n }, () => new WriteLane(options, partitions));
+  }
+
+  get laneCount(): number {
+    return this.lanes.length;
+  }
+
+  /** Samples waiting to be committed, over all lanes. */
+  pendingSamples(): number {
+    let n = 0;
+    for (const lane of this.lanes) n += lane.pendingSamples();
+    return n;
+  }
+
+  /** True while the last attempt to write failed in some lane (the database is unreachable or refusing). */
+  isFailing(): boolean {
+    return this.lanes.some((l) => l.isFailing());
+  }
+
+  /**
+   * Queues rows for commit; resolves once they are committed. `unitKey` picks the lane:
+   * every write about one unit's estimators must give the same key (the unit's key).
+   */
+  write(parts: WriteParts, unitKey = ''): Promise<void> {
+    return this.lanes[laneOf(unitKey, this.lanes.length)].write(parts);
+  }
+
+  /** Writes rows about several units, each unit's in its own lane; resolves once all are committed. */
+  async writeByUnit(items: { unitKey: string; parts: WriteParts }[]): Promise<void> {
+    const byLane = new Map<number, Required<WriteParts>>();
+    for (const { unitKey, parts } of items) {
+      const lane = laneOf(unitKey, this.lanes.length);
+      let into = byLane.get(lane);
+      if (!into) byLane.set(lane, (into = { samples: [], quarantine: [], status: [], checkpoints: [], alerts: [] }));
+      for (const key of ['samples', 'quarantine', 'status', 'checkpoints', 'alerts'] as const) {
+        const rows = parts[key];
+        if (rows) for (const r of rows) (into[key] as unknown[]).push(r);
+      }
+    }
+    await Promise.all([...byLane].map(([lane, parts]) => this.lanes[lane].write(parts)));
+  }
+
+  /** Resolves once everything queued so far, in every lane, is committed. */
+  async drain(): Promise<void> {
+    await Promise.all(this.lanes.map((l) => l.drain()));
+  }
+
+  async close(): Promise<void> {
+    await Promise.all(this.lanes.map((l) => l.close()));
+  }
+}
+
+class WriteLane {
   private readonly pool: Pool;
   private readonly logger: Logger;
   private readonly maxBatchSamples: number;
   private readonly lingerMs: number;
-  private readonly partitions = new PartitionManager();
   private queue: Entry[] = [];
   private queuedSamples = 0;
   private timer: NodeJS.Timeout | null = null;
@@ -126,19 +202,20 @@ export class BatchWriter {
   private idleWaiters: (() => void)[] = [];
   private client: PoolClient | null = null;
 
-  constructor(private readonly options: BatchWriterOptions) {
+  constructor(
+    private readonly options: BatchWriterOptions,
+    private readonly partitions: PartitionManager,
+  ) {
     this.pool = options.pool;
     this.logger = options.logger;
     this.maxBatchSamples = options.maxBatchSamples ?? 2000;
     this.lingerMs = options.lingerMs ?? 20;
   }
 
-  /** Samples waiting to be committed. */
   pendingSamples(): number {
     return this.queuedSamples;
   }
 
-  /** True while the last attempt to write failed (the database is unreachable or refusing). */
   isFailing(): boolean {
     return this.failingSince !== null;
   }

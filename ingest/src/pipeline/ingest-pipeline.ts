@@ -260,17 +260,17 @@ export class IngestPipeline {
     }
     let status: StatusRow[] = [];
     let alerts: AlertOp[] = [];
-    if (
-      changed ||
-      stream.samplesSinceRefresh >= this.settings.rulesEverySamples ||
-      now - stream.lastStatusAtMs >= this.settings.statusEveryMs
-    ) {
-      ({ status, alerts } = this.refresh(stream, now));
+    const statusDue = changed || now - stream.lastStatusAtMs >= this.settings.statusEveryMs;
+    if (statusDue || stream.samplesSinceRefresh >= this.settings.rulesEverySamples) {
+      // The rules look every few samples; the status row (with its window summary, the
+      // bulk of what a batch upserts) is stored when the verdict changes and otherwise
+      // once per status period.
+      ({ status, alerts } = this.refresh(stream, now, false, statusDue));
     }
     const quarantine = this.quarantineRows(unitKey, estimatorKey, info.id, topic, payload, rejected, now);
     m.checkSeconds.observe((performance.now() - checksStarted) / 1000);
 
-    await this.deps.writer.write({ samples, quarantine, status, alerts });
+    await this.deps.writer.write({ samples, quarantine, status, alerts }, unitKey);
     m.samplesStored.inc(samples.length);
     if (changed) {
       this.deps.events.emit('verdict', { estimatorId: info.id, unitId: info.unitId, verdict: newVerdict, previous: previousVerdict, atMs: now });
@@ -280,12 +280,11 @@ export class IngestPipeline {
   }
 
   /** A status row and the alert operations for an estimator, from its current report. */
-  private refresh(stream: EstimatorStream, now: number, silent = false): { status: StatusRow[]; alerts: AlertOp[] } {
+  private refresh(stream: EstimatorStream, now: number, silent = false, withStatus = true): { status: StatusRow[]; alerts: AlertOp[] } {
     const report = stream.monitor.report();
     stream.lastReport = report;
-    stream.lastStatusAtMs = now;
     stream.samplesSinceRefresh = 0;
-    const status: StatusRow = {
+    const status: StatusRow | null = !withStatus ? null : {
       estimatorId: stream.info.id,
       verdict: stream.verdict,
       verdictSinceMs: stream.verdictSinceMs,
@@ -297,7 +296,10 @@ export class IngestPipeline {
       pValue: report.checks && Number.isFinite(report.pValue) ? report.pValue : null,
       nisRatio: report.checks?.nis.ready && report.m ? report.checks.nis.average / report.m : null,
     };
-    stream.unsavedSamples = 0;
+    if (status) {
+      stream.unsavedSamples = 0;
+      stream.lastStatusAtMs = now;
+    }
     const conditions = conditionsFromReport(report, {
       alertPValue: this.settings.alertPValue,
       neesAlerts: stream.monitor.config.neesInVerdict,
@@ -330,7 +332,7 @@ export class IngestPipeline {
     // Fresh evidence for a live alert is stored at most once per status period.
     if (now - stream.lastEvidenceAtMs >= this.settings.statusEveryMs) stream.lastEvidenceAtMs = now;
     else alerts = alerts.filter((op) => op.kind !== 'evidence');
-    return { status: [status], alerts };
+    return { status: status ? [status] : [], alerts };
   }
 
   private emitAlerts(alerts: AlertOp[]): void {
@@ -449,7 +451,7 @@ export class IngestPipeline {
     now: number,
   ): Promise<void> {
     const rows = this.quarantineRows(unitKey, estimatorKey, estimatorId, topic, payload, rejected, now);
-    await this.deps.writer.write({ quarantine: rows });
+    await this.deps.writer.write({ quarantine: rows }, unitKey);
     await this.noteQuarantine(unitKey, rows.length, now);
   }
 
@@ -487,7 +489,7 @@ export class IngestPipeline {
     // Evidence refreshes of a quarantine flood are not worth a write each.
     const worth = ops.filter((o) => o.kind !== 'evidence');
     if (worth.length > 0) {
-      await this.deps.writer.write({ alerts: worth });
+      await this.deps.writer.write({ alerts: worth }, unitKey);
       this.emitAlerts(worth);
     }
   }
@@ -501,7 +503,7 @@ export class IngestPipeline {
     // While the service itself is behind (its writes queue up), quiet streams may be
     // waiting on us rather than silent: silence is judged only when we keep up.
     const behind = this.deps.writer.pendingSamples() > this.settings.silenceJudgedBelowQueue;
-    const status: StatusRow[] = [];
+    const writes: { unitKey: string; parts: { status: StatusRow[]; alerts: AlertOp[] } }[] = [];
     const alerts: AlertOp[] = [];
     const verdictEvents: { stream: EstimatorStream; previous: VerdictWord }[] = [];
     for (const stream of this.streams.values()) {
@@ -520,15 +522,15 @@ export class IngestPipeline {
       // (When samples come back, handle() sets the checks' verdict again.)
       if (turnedSilent || now - stream.lastStatusAtMs >= this.settings.statusEveryMs) {
         const r = this.refresh(stream, now, silent);
-        status.push(...r.status);
+        writes.push({ unitKey: stream.info.unitKey, parts: r });
         alerts.push(...r.alerts);
       }
     }
     for (const [unitKey, q] of this.unitQuarantine) {
       if (q.rules.liveRules().length > 0) await this.evaluateQuarantineRate(unitKey, q, now);
     }
-    if (status.length === 0 && alerts.length === 0) return;
-    await this.deps.writer.write({ status, alerts });
+    if (writes.length === 0) return;
+    await this.deps.writer.writeByUnit(writes);
     for (const { stream, previous } of verdictEvents) {
       this.deps.events.emit('verdict', {
         estimatorId: stream.info.id,
@@ -555,10 +557,11 @@ export class IngestPipeline {
       if (!stream.checkpointDirty) continue;
       stream.checkpointDirty = false;
       const state = stream.monitor.serialize();
-      rows.push({ estimatorId: stream.info.id, state, samplesSeen: state.samples });
+      rows.push({ unitKey: stream.info.unitKey, parts: { checkpoints: [{ estimatorId: stream.info.id, state, samplesSeen: state.samples }] } });
     }
     if (ids.length > 0) this.checkpointCursor = (this.checkpointCursor + k) % ids.length;
-    if (rows.length > 0) await this.deps.writer.write({ checkpoints: rows });
+    // Each in its unit's lane, behind that unit's samples: a checkpoint never commits ahead of the samples it has seen.
+    if (rows.length > 0) await this.deps.writer.writeByUnit(rows);
     return rows.length;
   }
 

@@ -16,18 +16,36 @@ export function partitionName(dayMs: number): string {
 
 export class PartitionManager {
   private readonly known = new Set<number>();
+  /** Creations under way: the service's write lanes share this manager and wait for one another. */
+  private readonly creating = new Map<number, Promise<void>>();
 
   /** Makes sure a partition exists for each day; names are built here from dates only. */
   async ensure(client: PoolClient | Pool, days: Iterable<number>): Promise<void> {
     for (const day of days) {
       if (this.known.has(day)) continue;
-      const from = new Date(day).toISOString();
-      const to = new Date(day + DAY_MS).toISOString();
+      let pending = this.creating.get(day);
+      if (!pending) {
+        pending = this.create(client, day).finally(() => this.creating.delete(day));
+        this.creating.set(day, pending);
+      }
+      await pending;
+    }
+  }
+
+  private async create(client: PoolClient | Pool, day: number): Promise<void> {
+    const from = new Date(day).toISOString();
+    const to = new Date(day + DAY_MS).toISOString();
+    try {
       await client.query(
         `create table if not exists ${partitionName(day)} partition of innovation_samples for values from ('${from}') to ('${to}')`,
       );
-      this.known.add(day);
+    } catch (err) {
+      // Another process (a second ingest worker) created it at the same moment: "if not
+      // exists" does not cover a creation that is not yet committed.
+      const code = (err as { code?: string }).code;
+      if (code !== '42P07' && code !== '23505') throw err;
     }
+    this.known.add(day);
   }
 
   /** Drops the partitions that lie wholly before now − retention. Returns the names dropped. */

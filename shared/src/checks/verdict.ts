@@ -71,12 +71,37 @@ export function packFloat64(values: ArrayLike<number>): string {
   const view = new DataView(new ArrayBuffer(values.length * 8));
   for (let i = 0; i < values.length; i++) view.setFloat64(i * 8, values[i], true);
   const bytes = new Uint8Array(view.buffer);
+  // Node's btoa is slow (profiled: the largest single stall in the ingest service's
+  // checkpoints); its Buffer gives the same base64 natively. Browsers use btoa.
+  if (nodeBuffer) return nodeBuffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength).toString('base64');
   let binary = '';
   for (let i = 0; i < bytes.length; i += 0x8000) binary += String.fromCharCode(...bytes.subarray(i, i + 0x8000));
   return btoa(binary);
 }
 
+/** Node's Buffer where there is one (the service); undefined in a browser. */
+const nodeBuffer = (
+  globalThis as {
+    Buffer?: {
+      from(buffer: ArrayBufferLike, byteOffset?: number, length?: number): { toString(encoding: 'base64'): string };
+      from(text: string, encoding: 'base64'): Uint8Array;
+    };
+  }
+).Buffer;
+
+const BASE64 = /^(?:[A-Za-z0-9+/]{4})*(?:[A-Za-z0-9+/]{2}==|[A-Za-z0-9+/]{3}=)?$/;
+
 function unpackFloat64(packed: string, what: string): number[] {
+  if (nodeBuffer) {
+    // Buffer's decoder skips characters that are not base64 where atob refuses them: check first.
+    if (!BASE64.test(packed)) throw new CheckpointError(`${what}: not base64`);
+    const bytes = nodeBuffer.from(packed, 'base64');
+    if (bytes.length % 8 !== 0) throw new CheckpointError(`${what}: packed length ${bytes.length} is not a multiple of 8 bytes`);
+    const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+    const out = new Array<number>(bytes.length / 8);
+    for (let i = 0; i < out.length; i++) out[i] = view.getFloat64(i * 8, true);
+    return out;
+  }
   let binary: string;
   try {
     binary = atob(packed);
