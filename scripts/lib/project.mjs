@@ -15,12 +15,17 @@ export const bin = (name) => path.join(root, 'node_modules', '.bin', name);
  */
 export const tsNode = (file, args = [], nodeFlags = []) => [process.execPath, [...nodeFlags, '--import', 'tsx', file, ...args]];
 /**
- * Node flags for the ingest service. A larger young generation (64 MB semi-spaces instead
- * of 16) lets the short-lived objects of each message die young: measured with
- * `npm run bench:ingest -- --batch 10` at 20,000 samples/s, service CPU per sample
- * 29.2 → 27.4 µs and median publish-to-commit 462 → 398 ms.
+ * Node flags for the ingest service: none at present. A 64 MB young generation once
+ * helped (the per-estimator report of every rules look was kept until the next one, so
+ * it outlived a small nursery); since the service no longer keeps it, Node's default
+ * (16 MB semi-spaces) gives shorter scavenge pauses. Measured with
+ * `npm run bench:ingest -- --batch 10 --duration 75` at 20,000 samples/s, one run each
+ * (runs vary by a few hundred ms): scavenges of 64 MB took 26 ms median and up to 107 ms;
+ * with the default, publish-to-commit p99 709 ms against 865–1327 ms, GC 3.9 s against
+ * 4.4–5.7 s, mean RSS 407 MB against 477 MB.
+ * `npm run bench:ingest -- --node-flag …` tries others.
  */
-export const SERVICE_NODE_FLAGS = ['--max-semi-space-size=64'];
+export const SERVICE_NODE_FLAGS = [];
 
 /** Installs the npm dependencies when node_modules is missing or older than the lock file. */
 export function ensureDependencies(log = console.log) {

@@ -93,7 +93,6 @@ interface EstimatorStream {
   lastEvidenceAtMs: number;
   checkpointDirty: boolean;
   rules: AlertRuleState;
-  lastReport: EstimatorReport | null;
   /** Sequence counters at the last refresh, and exponentially weighted recent counts (lost-samples rule). */
   seenLost: number;
   seenAccepted: number;
@@ -282,7 +281,6 @@ export class IngestPipeline {
   /** A status row and the alert operations for an estimator, from its current report. */
   private refresh(stream: EstimatorStream, now: number, silent = false, withStatus = true): { status: StatusRow[]; alerts: AlertOp[] } {
     const report = stream.monitor.report();
-    stream.lastReport = report;
     stream.samplesSinceRefresh = 0;
     const status: StatusRow | null = !withStatus ? null : {
       estimatorId: stream.info.id,
@@ -384,7 +382,6 @@ export class IngestPipeline {
         lastEvidenceAtMs: 0,
         checkpointDirty: false,
         rules: new AlertRuleState({ estimatorId: info.id, unitId: info.unitId }, this.settings.alertHoldMs),
-        lastReport: null,
         seenLost: 0,
         seenAccepted: 0,
         recentLost: 0,
