@@ -9,7 +9,7 @@ const listQuery = z.object({
   severity: z.enum(['info', 'warning', 'critical']).optional(),
   rule: text(64).optional(),
   site: text(64).optional(),
-  estimatorId: z.coerce.number().int().positive().optional(),
+  estimatorId: z.coerce.number().int().positive().max(2_147_483_647).optional(),
   q: text(100).optional(),
   sort: z.enum(['openedAt', 'severity', 'state', 'rule', 'unit']).default('openedAt'),
   ...paging,

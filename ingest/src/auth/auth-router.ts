@@ -1,7 +1,9 @@
 // /api/auth: sign-in, session refresh, sign-out, who am I, change my password.
 // The refresh token travels only in an httpOnly, SameSite=Strict cookie scoped to
 // /api/auth; the routes that read it also require the X-Whitecap-CSRF header, which a
-// cross-site form cannot send (and CORS is closed), so a forged request is refused.
+// cross-site form cannot send (and CORS is closed), so a forged request is refused; and a
+// request a browser marks as coming from another site (Origin, Sec-Fetch-Site) is refused
+// on every route that reads or sets the cookie.
 import { Router, type RequestHandler } from 'express';
 import { rateLimit } from 'express-rate-limit';
 import { z } from 'zod';
@@ -41,6 +43,33 @@ export function requireSignedIn(passport: PassportInstance): RequestHandler {
   };
 }
 
+/**
+ * Refuses what a browser sends on behalf of another site: an Origin that is neither this
+ * host nor the public URL's (or is "null"), or Sec-Fetch-Site: cross-site or same-site.
+ * Clients that are not browsers send neither header and pass.
+ */
+export function requireSameOrigin(publicUrl?: string): RequestHandler {
+  const publicHost = publicUrl ? new URL(publicUrl).host : null;
+  return (req, _res, next) => {
+    const site = req.get('sec-fetch-site');
+    const origin = req.get('origin');
+    let originHost: string | null = null;
+    if (origin !== undefined) {
+      try {
+        originHost = new URL(origin).host || null;
+      } catch {
+        originHost = null;
+      }
+    }
+    const siteOk = site === undefined || site === 'same-origin' || site === 'none';
+    const originOk = origin === undefined || (originHost !== null && (originHost === req.get('host') || originHost === publicHost));
+    if (!siteOk || !originOk) {
+      return next(new HttpProblem(403, 'cross-site', 'Request refused', 'Sign-in and sessions are served only to pages of this site.'));
+    }
+    next();
+  };
+}
+
 const requireCsrfHeader: RequestHandler = (req, _res, next) => {
   if (req.get(CSRF_HEADER) !== '1') {
     return next(new HttpProblem(403, 'csrf', 'Request refused', `This request needs the ${CSRF_HEADER} header.`));
@@ -50,8 +79,10 @@ const requireCsrfHeader: RequestHandler = (req, _res, next) => {
 
 export interface AuthRouterOptions {
   secureCookies: boolean;
-  /** Sign-in attempts per client address per minute. */
+  /** Sign-in attempts (and password changes) per client address per minute. */
   signInPerMinute: number;
+  /** The address the dashboard is served from: its origin is accepted besides the request's own host. */
+  publicUrl?: string;
 }
 
 export function authRouter(auth: AuthService, passport: PassportInstance, options: AuthRouterOptions): Router {
@@ -63,16 +94,26 @@ export function authRouter(auth: AuthService, passport: PassportInstance, option
     path: '/api/auth',
     maxAge: maxAgeMs,
   });
-  const signInLimiter = rateLimit({
-    windowMs: 60_000,
-    limit: options.signInPerMinute,
-    standardHeaders: 'draft-8',
-    legacyHeaders: false,
-    handler: (_req, _res, next) =>
-      next(new HttpProblem(429, 'too-many-requests', 'Too many attempts', 'Too many sign-in attempts from here; wait a minute, then try again.')),
+  const limiter = (what: string) =>
+    rateLimit({
+      windowMs: 60_000,
+      limit: options.signInPerMinute,
+      standardHeaders: 'draft-8',
+      legacyHeaders: false,
+      handler: (_req, _res, next) =>
+        next(new HttpProblem(429, 'too-many-requests', 'Too many attempts', `Too many ${what} from here; wait a minute, then try again.`)),
+    });
+  const signInLimiter = limiter('sign-in attempts');
+  // Guessing the current password with a stolen access token is as limited as guessing it at sign-in.
+  const passwordLimiter = limiter('password changes');
+  const sameOrigin = requireSameOrigin(options.publicUrl);
+  // Answers here carry tokens or session state: never kept by a cache.
+  router.use((_req, res, next) => {
+    res.set('Cache-Control', 'no-store');
+    next();
   });
 
-  router.post('/sign-in', signInLimiter, (req, res, next) => {
+  router.post('/sign-in', sameOrigin, signInLimiter, (req, res, next) => {
     const parsed = signInBody.safeParse(req.body);
     if (!parsed.success) {
       return next(new HttpProblem(400, 'invalid-request', 'Invalid request', 'Send a JSON body with email and password.'));
@@ -87,7 +128,7 @@ export function authRouter(auth: AuthService, passport: PassportInstance, option
     })(req, res, next);
   });
 
-  router.post('/refresh', requireCsrfHeader, async (req, res) => {
+  router.post('/refresh', sameOrigin, requireCsrfHeader, async (req, res) => {
     const token = req.cookies?.[REFRESH_COOKIE] as string | undefined;
     if (!token) throw new HttpProblem(401, 'session-expired', 'Not signed in', 'No session to refresh; sign in.');
     try {
@@ -100,7 +141,7 @@ export function authRouter(auth: AuthService, passport: PassportInstance, option
     }
   });
 
-  router.post('/sign-out', requireCsrfHeader, async (req, res) => {
+  router.post('/sign-out', sameOrigin, requireCsrfHeader, async (req, res) => {
     await auth.signOut(req.cookies?.[REFRESH_COOKIE] as string | undefined);
     res.clearCookie(REFRESH_COOKIE, { path: '/api/auth' });
     res.status(204).end();
@@ -110,7 +151,7 @@ export function authRouter(auth: AuthService, passport: PassportInstance, option
     res.json(req.user);
   });
 
-  router.post('/password', requireSignedIn(passport), async (req, res) => {
+  router.post('/password', requireSignedIn(passport), passwordLimiter, async (req, res) => {
     const parsed = passwordBody.safeParse(req.body);
     if (!parsed.success) throw new HttpProblem(400, 'invalid-request', 'Invalid request', 'Send currentPassword and newPassword.');
     try {

@@ -38,12 +38,35 @@ export class AuthError extends Error {
   }
 }
 
-/** The password policy: at least 10 characters, not the e-mail address, not one repeated character. */
+/**
+ * Words that the most common leaked passwords are made of: a password that is one of them with
+ * digits or symbols around it ("Password123!", "qwerty2024") is among the first an attacker tries.
+ */
+const COMMON_PASSWORD_WORDS = new Set([
+  'password', 'passw0rd', 'p@ssw0rd', 'qwerty', 'qwertyuiop', 'qwertz', 'azerty', 'asdfghjkl', 'zxcvbnm', 'letmein', 'welcome',
+  'admin', 'administrator', 'changeme', 'iloveyou', 'trustno1', 'monkey', 'dragon', 'football', 'baseball', 'sunshine',
+  'princess', 'master', 'secret', 'login', 'whitecap', 'qazwsx', '1qaz2wsx', '1q2w3e4r', '1q2w3e4r5t', 'abc', 'abcd', '1234567890', '0987654321',
+]);
+
+/**
+ * The password policy: 10 to 200 characters; not the e-mail address; at least 5 different
+ * characters (no "aaaaaaaaaa", "abababababab"); not a run like "0123456789" or "abcdefghij";
+ * not a common password word with digits or symbols around it.
+ */
 export function passwordProblem(password: string, email = ''): string | null {
   if (password.length < 10) return 'must be at least 10 characters long';
   if (password.length > 200) return 'must be at most 200 characters long';
-  if (email && password.toLowerCase() === email.toLowerCase()) return 'must not be the e-mail address';
+  const lower = password.toLowerCase();
+  if (email && (lower === email.toLowerCase() || lower === email.toLowerCase().split('@')[0])) return 'must not be the e-mail address';
   if (/^(.)\1*$/.test(password)) return 'must not be one character repeated';
+  if (new Set(password).size < 5) return 'must use at least 5 different characters';
+  const codes = [...lower].map((c) => c.codePointAt(0)!);
+  const step = codes[1] - codes[0];
+  if (Math.abs(step) === 1 && codes.every((c, i) => i === 0 || c - codes[i - 1] === step)) return 'must not be a run of consecutive characters';
+  const word = lower.replace(/^[^a-z]+|[^a-z]+$/g, '');
+  if (COMMON_PASSWORD_WORDS.has(word) || COMMON_PASSWORD_WORDS.has(lower)) {
+    return 'must not be a common password';
+  }
   return null;
 }
 

@@ -22,8 +22,11 @@ export function createPassport(auth: AuthService, users: UsersRepository, secret
     new JwtStrategy(
       // Only HS256 with our key: unsigned tokens (alg none) and other algorithms are refused.
       { jwtFromRequest: ExtractJwt.fromAuthHeaderAsBearerToken(), secretOrKey: secret, algorithms: ['HS256'] },
-      (claims: { sub: string }, done: (err: unknown, user?: unknown) => void) => {
-        users.findById(Number(claims.sub)).then((row) => done(null, row && row.active ? publicUser(row) : false), done);
+      (claims: { sub?: unknown; exp?: unknown }, done: (err: unknown, user?: unknown) => void) => {
+        // We issue only tokens that expire, for a user id in decimal: anything else is not ours.
+        const id = typeof claims.sub === 'string' && /^[1-9]\d{0,9}$/.test(claims.sub) ? Number(claims.sub) : NaN;
+        if (!(id <= 2_147_483_647) || typeof claims.exp !== 'number') return done(null, false);
+        users.findById(id).then((row) => done(null, row && row.active ? publicUser(row) : false), done);
       },
     ),
   );

@@ -14,7 +14,7 @@ import type { HealthService } from '../health/health-service';
 import type { Logger } from '../logger';
 import type { Metrics } from '../metrics';
 import { openApiDocument } from './openapi';
-import { HttpProblem, notFound, problemHandler } from './problem';
+import { HttpProblem, notFound, problemHandler, refusePrototypeKeys } from './problem';
 import { mountRoutes, type RouteDef } from './route-table';
 
 export interface AppDeps {
@@ -59,7 +59,8 @@ export function createApp(deps: AppDeps): Express {
       },
     }),
   );
-  app.use(express.json({ limit: '1mb' }));
+  // JSON bodies up to 1 MB, with __proto__ and constructor.prototype refused while parsing.
+  app.use(express.json({ limit: '1mb', reviver: refusePrototypeKeys }));
   app.use(cookieParser());
   app.use(deps.passport.initialize());
 
@@ -70,7 +71,7 @@ export function createApp(deps: AppDeps): Express {
 
   const api = express.Router();
   api.use('/health', healthRouter(deps.health));
-  api.use('/auth', authRouter(deps.auth, deps.passport, deps.authOptions));
+  api.use('/auth', authRouter(deps.auth, deps.passport, { publicUrl: deps.publicUrl, ...deps.authOptions }));
   const document = openApiDocument(deps.routes, deps.publicUrl);
   api.get('/openapi.json', (_req, res) => {
     res.json(document);

@@ -38,10 +38,10 @@ export const extraOperations: { method: string; path: string; op: Json }[] = [
     path: '/auth/sign-in',
     op: {
       tags: ['auth'],
-      summary: 'Sign in with e-mail and password: an access token, and a refresh token in an httpOnly cookie. Rate-limited; repeated failures lock the account for a while',
+      summary: 'Sign in with e-mail and password: an access token, and a refresh token in an httpOnly cookie. Rate-limited; repeated failures lock the account for a while; refused (403) to a page of another origin',
       security: [],
       requestBody: { required: true, content: { 'application/json': { schema: { type: 'object', required: ['email', 'password'], properties: { email: { type: 'string' }, password: { type: 'string' } } } } } },
-      responses: { 200: { description: 'signed in' }, 401: problem, 423: problem, 429: problem },
+      responses: { 200: { description: 'signed in' }, 401: problem, 403: problem, 423: problem, 429: problem },
     },
   },
   {
@@ -60,9 +60,9 @@ export const extraOperations: { method: string; path: string; op: Json }[] = [
     path: '/auth/password',
     op: {
       tags: ['auth'],
-      summary: 'Change my password (at least 10 characters); ends my other sessions',
+      summary: 'Change my password (10 to 200 characters, at least 5 different, not a run or a common password, not my e-mail); ends my other sessions. Rate-limited like sign-in',
       requestBody: { required: true, content: { 'application/json': { schema: { type: 'object', required: ['currentPassword', 'newPassword'], properties: { currentPassword: { type: 'string' }, newPassword: { type: 'string' } } } } } },
-      responses: { 204: { description: 'changed' }, 400: problem, 401: problem },
+      responses: { 204: { description: 'changed' }, 400: problem, 401: problem, 429: problem },
     },
   },
 ];
@@ -85,6 +85,7 @@ export function openApiDocument(routes: RouteDef[], serverUrl: string): Json {
         401: problem,
         403: problem,
         404: problem,
+        ...(r.body ? { 413: problem, 415: problem } : {}),
       },
     };
   }

@@ -71,12 +71,52 @@ export function allow(ability: Ability): RequestHandler {
   };
 }
 
+/** How deep a JSON body or query may nest (a design model is three levels: object, rows, entries). */
+export const MAX_INPUT_DEPTH = 32;
+
+/**
+ * What no route takes, whatever its schema: nesting deeper than MAX_INPUT_DEPTH (a validator
+ * or checker that recurses would run out of stack) and the NUL character (PostgreSQL cannot
+ * store it in text). Walks the value without recursion; null when the value is acceptable.
+ */
+export function unacceptable(value: unknown, where: string): HttpProblem | null {
+  const stack: { v: unknown; path: (string | number)[] }[] = [{ v: value, path: [] }];
+  while (stack.length > 0) {
+    const { v, path } = stack.pop()!;
+    const problem = (message: string) =>
+      new HttpProblem(400, 'invalid-request', 'Invalid request', `${where}${path.length ? ` ${path.join('.')}` : ''}: ${message}`, {
+        errors: [{ where, path: path.join('.'), message }],
+      });
+    if (typeof v === 'string') {
+      if (v.includes('\u0000')) return problem('must not contain the NUL character');
+    } else if (v !== null && typeof v === 'object') {
+      if (path.length >= MAX_INPUT_DEPTH) return problem(`nested more than ${MAX_INPUT_DEPTH} levels deep`);
+      for (const [k, child] of Object.entries(v)) {
+        if (k.includes('\u0000')) return problem('must not contain the NUL character');
+        stack.push({ v: child, path: [...path, Array.isArray(v) ? Number(k) : k] });
+      }
+    }
+  }
+  return null;
+}
+
+/** Whether the request carries a body (a length above zero, or chunks). */
+function hasBody(req: Request): boolean {
+  return req.headers['transfer-encoding'] !== undefined || (req.headers['content-length'] !== undefined && req.headers['content-length'] !== '0');
+}
+
 /** Mounts the routes on a router: authentication, then the role check, then validation, then the handler. */
 export function mountRoutes(router: Router, defs: RouteDef[], authenticate: RequestHandler): void {
   for (const def of defs) {
     router[def.method](def.path, authenticate, allow(def.ability), async (req: Request, res: Response) => {
+      // A route that takes JSON reads nothing else: a form or text body is refused, not taken for an empty object.
+      if (def.body && hasBody(req) && !req.is('application/json')) {
+        throw new HttpProblem(415, 'unsupported-media-type', 'Send JSON', 'The request body must be application/json.');
+      }
       const parse = <T>(schema: ZodType<T> | undefined, value: unknown, where: string): T => {
         if (!schema) return value as T;
+        const refused = unacceptable(value, where);
+        if (refused) throw refused;
         const r = schema.safeParse(value ?? {});
         if (!r.success) throw invalid(where, r.error);
         return r.data;
@@ -99,7 +139,8 @@ export function openApiPath(path: string): string {
 }
 
 // Shared input pieces.
-export const idParam = z.object({ id: z.coerce.number().int().positive() });
+/** A row id in a path. Ids are PostgreSQL integers (int4); larger ones are refused here rather than by the database. */
+export const idParam = z.object({ id: z.coerce.number().int().positive().max(2_147_483_647) });
 export const paging = {
   limit: z.coerce.number().int().min(1).max(500).default(50),
   offset: z.coerce.number().int().min(0).default(0),

@@ -12,7 +12,15 @@ const id = () => z.coerce.number().int().positive().max(2_147_483_647);
 
 const uploadQuery = z.object({
   designRevisionId: id(),
-  name: z.string().trim().min(1, 'required: a name for the upload').max(200),
+  // A label, never a path: no slashes, no control or bidirectional-override characters, not only dots.
+  name: z
+    .string()
+    .trim()
+    .min(1, 'required: a name for the upload')
+    .max(200)
+    .refine((s) => !/[\\/\p{Cc}\u202A-\u202E\u2066-\u2069]/u.test(s) && !/^\.+$/.test(s), {
+      message: 'must be a plain name: no slashes or backslashes, no control characters, not only dots',
+    }),
 });
 
 const listQuery = z.object({
