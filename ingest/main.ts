@@ -1,4 +1,5 @@
 // The Whitecap service: `npm run serve` (npm start runs it for you).
+import { shiftedClock } from './src/clock';
 import { ConfigError, loadConfig } from './src/config';
 import { createLogger } from './src/logger';
 import { startService } from './src/server';
@@ -15,7 +16,7 @@ async function main(): Promise<void> {
     throw err;
   }
   const logger = createLogger(config.logLevel);
-  const service = await startService(config, logger);
+  const service = await startService(config, logger, shiftedClock(config.clockOffsetMs));
   let stopping = false;
   const stop = async (signal: string) => {
     if (stopping) return;

@@ -29,6 +29,20 @@ function ensureChromium() {
   if (r.status !== 0) throw new Error('apt-get install chromium failed');
 }
 
+// The faults suite runs Debian's mosquitto on loopback as an external broker (its own
+// port and configuration; a system mosquitto on 1883, if the package started one, is not used).
+function ensureMosquitto() {
+  if (fs.existsSync('/usr/sbin/mosquitto')) return;
+  if (process.getuid?.() !== 0) {
+    throw new Error('Debian mosquitto is missing for the faults tests: sudo apt-get install -y mosquitto');
+  }
+  log('installing Debian\'s mosquitto for the faults tests (apt-get)…');
+  const env = { ...process.env, DEBIAN_FRONTEND: 'noninteractive' };
+  if (spawnSync('apt-get', ['update'], { stdio: 'inherit', env }).status !== 0) throw new Error('apt-get update failed');
+  const r = spawnSync('apt-get', ['install', '-y', '--no-install-recommends', 'mosquitto'], { stdio: 'inherit', env });
+  if (r.status !== 0) throw new Error('apt-get install mosquitto failed');
+}
+
 function typecheck() {
   for (const project of ['shared/tsconfig.json', 'ingest/tsconfig.json', 'dashboard/tsconfig.app.json', 'test/tsconfig.json', 'ingest/bench/tsconfig.json']) {
     if (!fs.existsSync(path.join(root, project))) continue;
@@ -40,6 +54,7 @@ function typecheck() {
 async function main() {
   ensureDependencies(log);
   ensureChromium();
+  ensureMosquitto();
   if (!quick) {
     typecheck();
     ensureDashboardBuilt(log);

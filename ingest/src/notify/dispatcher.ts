@@ -1,8 +1,10 @@
 // Sends the outbox: e-mail through SMTP (nodemailer), webhooks as signed HTTP POSTs.
 // A delivery is claimed before it is sent, so it goes out once; a failure is retried
-// with backoff (1 s, 2 s, 4 s, … up to 5 minutes) and, after the last attempt, kept as
-// failed with its error for the delivery log, where an admin can send it again.
+// with backoff (1 s, 2 s, 4 s, … up to 5 minutes, or WHITECAP_DELIVERY_RETRY_MAX_MS) and,
+// after the last attempt, kept as failed with its error for the delivery log, where an
+// admin can send it again.
 import nodemailer, { type Transporter } from 'nodemailer';
+import { systemClock, type Clock } from '../clock';
 import type { Logger } from '../logger';
 import type { DeliveryRow, NotifyRepository } from './notify-repository';
 import { WEBHOOK_SIGNATURE_HEADER, signWebhook } from './signing';
@@ -14,9 +16,19 @@ export interface DispatcherSettings {
   webhookTimeoutMs: number;
   /** First retry delay; doubles each attempt (default 1 s). */
   retryBaseMs?: number;
+  /** Longest retry delay (default 5 minutes). */
+  retryMaxMs?: number;
 }
 
 const MAX_RETRY_MS = 5 * 60_000;
+
+/** An error's message, with the cause behind fetch's bare "fetch failed" (e.g. ECONNREFUSED). */
+function errorText(err: unknown): string {
+  const e = err as (Error & { cause?: { code?: string; message?: string } }) | undefined;
+  const message = e?.message || String(err);
+  const cause = e?.cause?.code ?? e?.cause?.message;
+  return cause && !message.includes(cause) ? `${message} (${cause})` : message;
+}
 
 /** https anywhere; plain http only to this machine (loopback). */
 export function webhookUrlProblem(raw: string): string | null {
@@ -43,6 +55,7 @@ export class Dispatcher {
     private readonly repo: NotifyRepository,
     private readonly logger: Logger,
     private readonly settings: DispatcherSettings,
+    private readonly clock: Clock = systemClock,
   ) {
     const { smtp } = settings;
     this.transport = nodemailer.createTransport({
@@ -85,9 +98,9 @@ export class Dispatcher {
       await this.repo.markSent(d.id);
       return true;
     } catch (err) {
-      const message = (err as Error).message || String(err);
+      const message = errorText(err);
       const last = d.attempts >= this.settings.maxAttempts;
-      const retryIn = last ? null : Math.min((this.settings.retryBaseMs ?? 1000) * 2 ** (d.attempts - 1), MAX_RETRY_MS);
+      const retryIn = last ? null : Math.min((this.settings.retryBaseMs ?? 1000) * 2 ** (d.attempts - 1), this.settings.retryMaxMs ?? MAX_RETRY_MS);
       await this.repo.markFailed(d.id, message, retryIn);
       this.logger.warn({ delivery: d.id, channel: d.channel, attempt: d.attempts, err: message, retryInMs: retryIn }, last ? 'delivery failed for good' : 'delivery failed; will retry');
       return false;
@@ -113,7 +126,7 @@ export class Dispatcher {
     const problem = webhookUrlProblem(d.target);
     if (problem) throw new Error(`refused to send: the URL ${problem}`);
     const body = (d.content as { body: string }).body;
-    const ts = Math.floor(Date.now() / 1000);
+    const ts = Math.floor(this.clock.now() / 1000);
     const res = await fetch(d.target, {
       method: 'POST',
       headers: {

@@ -30,6 +30,55 @@ export class CheckpointLoader {
     });
   }
 
+  private after = new Map<number, { seq: number; waiters: { resolve: (rows: { seq: number; t: number }[]) => void; reject: (e: Error) => void }[] }>();
+  private afterScheduled = false;
+
+  /**
+   * The samples stored for an estimator with a sequence number above `seq`, in order:
+   * those committed after its checkpoint; at most 2048 (twice what the sequence
+   * check remembers). Requests in one turn of the event loop share one query.
+   */
+  storedAfter(estimatorId: number, seq: number): Promise<{ seq: number; t: number }[]> {
+    return new Promise((resolve, reject) => {
+      const entry = this.after.get(estimatorId);
+      if (entry) entry.waiters.push({ resolve, reject });
+      else this.after.set(estimatorId, { seq, waiters: [{ resolve, reject }] });
+      if (!this.afterScheduled) {
+        this.afterScheduled = true;
+        setImmediate(() => void this.flushAfter());
+      }
+    });
+  }
+
+  private async flushAfter(limit = 2048): Promise<void> {
+    const batch = this.after;
+    this.after = new Map();
+    this.afterScheduled = false;
+    const ids = [...batch.keys()];
+    try {
+      const res = await this.knex.raw<{ rows: { estimator_id: number; seq: string; t: Date }[] }>(
+        `select q.e as estimator_id, s.seq, s.t
+           from unnest(?::int[], ?::bigint[]) as q(e, after)
+           cross join lateral (
+             select seq, t from innovation_samples
+              where estimator_id = q.e and seq > q.after
+              order by seq limit ?
+           ) s`,
+        [ids, ids.map((id) => batch.get(id)!.seq), limit],
+      );
+      const rowsOf = new Map<number, { seq: number; t: number }[]>();
+      for (const r of res.rows) {
+        const id = Number(r.estimator_id);
+        let list = rowsOf.get(id);
+        if (!list) rowsOf.set(id, (list = []));
+        list.push({ seq: Number(r.seq), t: r.t.getTime() });
+      }
+      for (const [id, { waiters }] of batch) for (const w of waiters) w.resolve(rowsOf.get(id) ?? []);
+    } catch (err) {
+      for (const { waiters } of batch.values()) for (const w of waiters) w.reject(err as Error);
+    }
+  }
+
   private async flush(): Promise<void> {
     const batch = this.waiting;
     this.waiting = new Map();

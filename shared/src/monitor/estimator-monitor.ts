@@ -258,6 +258,32 @@ export class EstimatorMonitor {
 
   private static restoring = false;
 
+  /** The highest sequence number the checks have seen (−1 before any sample). */
+  get highestSeq(): number {
+    return this.checks ? this.checks.sequence.highestSeq : -1;
+  }
+
+  /**
+   * Samples known to be stored already but not seen by these checks: those committed after
+   * the checkpoint these checks were restored from, before the service stopped without
+   * saving again. The sequence check takes their numbers (so a unit that does not resend
+   * them, having had them acknowledged, leaves no false gap, and a resend of one counts
+   * as a duplicate); the statistical windows do not get them (their innovation
+   * covariances are not stored). Samples in ascending `seq`; returns how many were new.
+   */
+  markStored(stored: readonly { seq: number; t: number }[]): number {
+    const checks = this.checks;
+    if (!checks) return 0;
+    let taken = 0;
+    for (const { seq, t } of stored) {
+      if (!isAccepted(checks.sequence.observe(seq))) continue;
+      taken += 1;
+      this.lastSeq = seq;
+      if (this.lastT === undefined || t > this.lastT) this.lastT = t;
+    }
+    return taken;
+  }
+
   constructor(config: Partial<EstimatorMonitorConfig> = {}) {
     this.config = Object.freeze(resolveMonitorConfig(config));
     this.validation = resolveValidationOptions(this.config);
