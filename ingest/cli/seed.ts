@@ -4,9 +4,10 @@ import { createKnex } from '../src/db/knex';
 import { seedDemo } from '../src/demo/seed-demo';
 
 async function main(): Promise<void> {
-  const knex = createKnex(loadConfig().database.url, 2);
+  const config = loadConfig();
+  const knex = createKnex(config.database.url, 2);
   try {
-    const counts = await seedDemo(knex);
+    const counts = await seedDemo(knex, config.partitions.count);
     console.log(`demo seeded: ${counts.users} users, ${counts.units} units, ${counts.estimators} estimators`);
   } finally {
     await knex.destroy();

@@ -47,7 +47,7 @@ export class FleetAdminRepository {
   }
 
   unit(id: number) {
-    return this.knex('units').where({ id }).first('id', 'key');
+    return this.knex('units').where({ id }).first<{ id: number; key: string; partition: number } | undefined>('id', 'key', 'partition');
   }
 
   /** Revokes the unit's current credentials and stores a new one, in one transaction. */

@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { hashDeviceSecret, newDeviceSecret } from '../broker/device-auth';
+import { innovationsTopic, partitionedInnovationsTopic } from '../broker/topics';
 import { HttpProblem } from '../http/problem';
 import { idParam, paging, route, text, type RouteDef } from '../http/route-table';
 import type { FleetAdminRepository } from './fleet-admin-repository';
@@ -36,7 +37,19 @@ export function fleetAdminRoutes(repo: FleetAdminRepository): RouteDef[] {
         if (!unit) throw new HttpProblem(404, 'not-found', 'No such unit', `There is no unit ${params.id}.`);
         const secret = newDeviceSecret();
         await repo.replaceCredential(unit.id, unit.key, hashDeviceSecret(secret));
-        return { username: unit.key, secret, note: 'Store the secret on the unit now: Whitecap keeps only its hash.' };
+        const partition = Number(unit.partition);
+        return {
+          username: unit.key,
+          secret,
+          // Where the unit publishes: the first topic on the embedded broker, the second behind an
+          // external broker with partitioned workers (WHITECAP_PARTITIONED; docs/scaling.md).
+          partition,
+          topics: {
+            innovations: innovationsTopic(unit.key, '{estimator}'),
+            partitionedInnovations: partitionedInnovationsTopic(partition, unit.key, '{estimator}'),
+          },
+          note: 'Store the secret on the unit now: Whitecap keeps only its hash.',
+        };
       },
     }),
     route({

@@ -3,6 +3,7 @@ import bcrypt from 'bcryptjs';
 import type { Knex } from 'knex';
 import { lqr } from '../../../shared/src/design/gains';
 import { hashDeviceSecret } from '../broker/device-auth';
+import { DEFAULT_PARTITIONS, unitPartition } from '../broker/topics';
 import { demoDesigns, demoDeviceSecret, demoSites, demoUnits, demoUsers } from './saltmarsh';
 
 /** A discrete-time model for a design revision (dt = 1 s), stored as plain arrays. */
@@ -38,7 +39,8 @@ function demoModel(designKey: string, q: number): Record<string, number[][] | nu
   return { A: [[1, 0], [0, 1]], C: [[1, 0.05]], G: [[1, 0], [0, 1]], Q: [[q, 0], [0, 1e-8]], R: [[1e-4]] };
 }
 
-export async function seedDemo(knex: Knex): Promise<{ users: number; units: number; estimators: number }> {
+/** `partitions`: WHITECAP_PARTITIONS; each new unit gets its partition from its key (a unit already there keeps its own). */
+export async function seedDemo(knex: Knex, partitions = DEFAULT_PARTITIONS): Promise<{ users: number; units: number; estimators: number }> {
   return knex.transaction(async (trx) => {
     for (const u of demoUsers) {
       const exists = await trx('users').where({ email: u.email }).first('id');
@@ -84,7 +86,7 @@ export async function seedDemo(knex: Knex): Promise<{ users: number; units: numb
     let estimators = 0;
     for (const unit of demoUnits) {
       await trx('units')
-        .insert({ key: unit.key, name: unit.name, kind: unit.kind, site_id: siteIds.get(unit.site) })
+        .insert({ key: unit.key, name: unit.name, kind: unit.kind, site_id: siteIds.get(unit.site), partition: unitPartition(unit.key, partitions) })
         .onConflict('key')
         .ignore();
       const row = await trx('units').where({ key: unit.key }).first<{ id: number }>('id');
