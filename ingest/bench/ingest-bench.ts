@@ -22,22 +22,41 @@
  * This machine's cores are shared by the service, PostgreSQL and the publishers: the
  * report gives each one's CPU so a missed target can be put where it belongs.
  */
-import { execFileSync, fork, spawn, type ChildProcess } from 'node:child_process';
+import { fork } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
 import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import pg from 'pg';
-import { LocalPostgres, freePort } from '../../scripts/lib/postgres.mjs';
-import { SERVICE_NODE_FLAGS, requireFromProject } from '../../scripts/lib/project.mjs';
 import { syntheticTractors } from '../../simulators/src/saltmarsh-fleet';
-import { hashDeviceSecret } from '../src/broker/device-auth';
 import { benchSecretFor, type FromWorker, type ToWorker, type WorkerConfig, type WorkerCounts } from './bench-fleet';
+import {
+  CHECK_RULES,
+  MB,
+  benchPostgresSettings,
+  cleanupNow,
+  countStoredOfAcknowledged,
+  fmtInt,
+  fmtMs,
+  gitCommit,
+  installCleanup,
+  log,
+  metric,
+  postmasterPidOf,
+  provisionSyntheticTractors,
+  root,
+  round,
+  sleep,
+  stack,
+  startBenchPostgres,
+  startBenchService,
+  stopBenchPostgres,
+  waitForExit,
+} from './bench-stack';
 import { summarizeProfile, type ProfileSummary } from './cpuprofile-summary';
 import { LatencyHistogram } from './latency-histogram';
 import { childCpuByKind, cpuSplit, machineCpuSeconds, postgresKind, rssBytes, treeCpuSeconds } from './proc-sampler';
 
-const root = path.resolve(__dirname, '../..');
 const resultsDir = path.join(__dirname, 'results');
 
 // ---------------------------------------------------------------- options
@@ -243,142 +262,10 @@ function parseOptions(argv: string[]): Options {
   return o;
 }
 
-// ---------------------------------------------------------------- helpers
-
-const log = (msg: string) => console.log(`[bench] ${msg}`);
-const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
-const round = (x: number | null | undefined, digits = 1): number | null =>
-  x === null || x === undefined || !Number.isFinite(x) ? null : Number(x.toFixed(digits));
-const fmtInt = (x: number | null | undefined) => (x === null || x === undefined ? 'n/a' : Math.round(x).toLocaleString('en-US'));
-const fmtMs = (x: number | null | undefined) => (x === null || x === undefined ? 'n/a' : x >= 100 ? `${Math.round(x)} ms` : `${x.toFixed(1)} ms`);
-const MB = 1024 * 1024;
-/** The rules a noise fault should trip (silence and lost samples say something about delivery instead). */
-const CHECK_RULES = new Set(['nis-window', 'cusum-drift', 'whiteness', 'bias', 'nees-window']);
-
-/** The commit measured, and whether the service's folders differ from it. */
-function gitCommit(): string | null {
-  try {
-    const head = execFileSync('git', ['rev-parse', '--short', 'HEAD'], { cwd: root, encoding: 'utf8', stdio: ['ignore', 'pipe', 'ignore'] }).trim();
-    const dirty = execFileSync('git', ['status', '--porcelain', '--', 'ingest/src', 'ingest/main.ts', 'shared/src', 'migrations'], {
-      cwd: root,
-      encoding: 'utf8',
-      stdio: ['ignore', 'pipe', 'ignore'],
-    }).trim();
-    return dirty ? `${head} with local changes` : head;
-  } catch {
-    return null;
-  }
-}
-
-function runNode(args: string[], env: Record<string, string>): Promise<string> {
-  return new Promise((resolve, reject) => {
-    const child = spawn(process.execPath, args, { cwd: root, env: { ...process.env, ...env }, stdio: ['ignore', 'pipe', 'pipe'] });
-    let out = '';
-    child.stdout.on('data', (d) => (out += d));
-    child.stderr.on('data', (d) => (out += d));
-    child.on('error', reject);
-    child.on('exit', (code) => (code === 0 ? resolve(out.trim()) : reject(new Error(`node ${args.join(' ')} exited ${code}:\n${out}`))));
-  });
-}
-
-function waitForExit(child: ChildProcess, timeoutMs: number): Promise<boolean> {
-  if (child.exitCode !== null || child.signalCode !== null) return Promise.resolve(true);
-  return new Promise((resolve) => {
-    const t = setTimeout(() => resolve(false), timeoutMs);
-    child.once('exit', () => {
-      clearTimeout(t);
-      resolve(true);
-    });
-  });
-}
-
-/** Prometheus text → value of a series (name with its labels as written), summed over matching lines. */
-function metric(text: string, name: string, labels?: string): number {
-  let sum = 0;
-  for (const line of text.split('\n')) {
-    if (line.startsWith('#')) continue;
-    const sp = line.lastIndexOf(' ');
-    const series = line.slice(0, sp);
-    const bare = series.replace(/\{.*\}$/, '');
-    if (bare !== name) continue;
-    if (labels && !series.includes(labels)) continue;
-    sum += Number(line.slice(sp + 1));
-  }
-  return sum;
-}
-
 // ---------------------------------------------------------------- what gets cleaned up
 
-let postgres: LocalPostgres | null = null;
-let pgRoot: string | null = null;
-let service: ChildProcess | null = null;
-const workers: ChildProcess[] = [];
-let cleanedUp = false;
-
-function alive(pid: number): boolean {
-  try {
-    process.kill(pid, 0);
-    return true;
-  } catch {
-    return false;
-  }
-}
-
-/** Stops everything we started, synchronously (also from 'exit' and signal handlers). */
-function cleanupNow(): void {
-  if (cleanedUp) return;
-  cleanedUp = true;
-  for (const w of workers) {
-    if (w.exitCode === null && w.signalCode === null && w.pid) {
-      try {
-        process.kill(w.pid, 'SIGKILL');
-      } catch {
-        /* gone */
-      }
-    }
-  }
-  if (service && service.exitCode === null && service.signalCode === null && service.pid) {
-    try {
-      process.kill(service.pid, 'SIGKILL');
-    } catch {
-      /* gone */
-    }
-  }
-  if (postgres) {
-    const cluster = postgres;
-    let postmaster: number | null = null;
-    try {
-      postmaster = Number(fs.readFileSync(path.join(cluster.dataDir, 'postmaster.pid'), 'utf8').split('\n')[0]) || null;
-    } catch {
-      /* not running */
-    }
-    try {
-      cluster.stop('immediate');
-    } catch (err) {
-      console.error(`[bench] pg_ctl stop failed: ${(err as Error).message}`);
-    }
-    // Should pg_ctl not have done it: SIGQUIT is PostgreSQL's immediate shutdown.
-    if (postmaster && alive(postmaster)) {
-      try {
-        process.kill(postmaster, 'SIGQUIT');
-      } catch {
-        /* gone */
-      }
-      const until = Date.now() + 5000;
-      while (alive(postmaster) && Date.now() < until) Atomics.wait(new Int32Array(new SharedArrayBuffer(4)), 0, 0, 50);
-    }
-  }
-  if (pgRoot) fs.rmSync(pgRoot, { recursive: true, force: true });
-}
-
-for (const sig of ['SIGINT', 'SIGTERM', 'SIGHUP'] as const) {
-  process.on(sig, () => {
-    console.error(`\n[bench] ${sig}: stopping the service, the publishers and PostgreSQL, removing the cluster`);
-    cleanupNow();
-    process.exit(130);
-  });
-}
-process.on('exit', cleanupNow);
+installCleanup();
+const workers = stack.workers;
 
 // ---------------------------------------------------------------- the run
 
@@ -421,31 +308,8 @@ async function main(): Promise<void> {
   );
 
   // -- PostgreSQL
-  pgRoot = fs.mkdtempSync(path.join(os.tmpdir(), 'whitecap-bench-pg-'));
-  const pgPort = await freePort();
-  const pgSettings: Record<string, string> = {
-    // durability as in production: these are PostgreSQL's defaults, stated so the report says them
-    fsync: 'on',
-    synchronous_commit: 'on',
-    full_page_writes: 'on',
-    wal_level: 'replica',
-    // sizing (no effect on durability)
-    shared_buffers: '256MB',
-    max_wal_size: '2GB',
-    checkpoint_timeout: '5min',
-    max_connections: '100',
-    ...(o.pgStatements ? { shared_preload_libraries: 'pg_stat_statements', 'pg_stat_statements.track': 'top' } : {}),
-    ...o.pgSettings,
-  };
-  postgres = new LocalPostgres({ root: pgRoot, port: pgPort, database: 'whitecap', settings: pgSettings, log });
-  postgres.init();
-  await postgres.start();
-  await postgres.ensureDatabase(requireFromProject);
-  const dbUrl = postgres.url;
-  log(`throwaway PostgreSQL on 127.0.0.1:${pgPort} (${pgRoot})`);
-  const dbEnv = { WHITECAP_DATABASE_URL: dbUrl };
-  log(await runNode(['--import', 'tsx', 'ingest/cli/migrate.ts', 'latest'], dbEnv));
-  log(await runNode(['--import', 'tsx', 'ingest/cli/seed.ts'], dbEnv));
+  const pgSettings = benchPostgresSettings(o.pgStatements, o.pgSettings);
+  const { postgres, pgRoot, dbUrl } = await startBenchPostgres(pgSettings);
 
   const setNice = (pid: number | undefined) => {
     if (o.nice === 0 || !pid) return;
@@ -456,96 +320,29 @@ async function main(): Promise<void> {
     }
   };
   // Backends fork from the postmaster and inherit its priority.
-  setNice(Number(fs.readFileSync(path.join(postgres.dataDir, 'postmaster.pid'), 'utf8').split('\n')[0]));
+  setNice(postmasterPidOf(postgres));
   setNice(process.pid);
   const db = new pg.Pool({ connectionString: dbUrl, max: 2 });
-  const dataDir = postgres.dataDir;
-  const postmasterPidOf = () => Number(fs.readFileSync(path.join(dataDir, 'postmaster.pid'), 'utf8').split('\n')[0]);
+  const currentPostmasterPid = () => postmasterPidOf(postgres);
   if (o.pgStatements) await db.query('create extension if not exists pg_stat_statements');
   const pgVersion = (await db.query<{ server_version: string }>('show server_version')).rows[0].server_version;
 
   // -- provision the synthetic fleet
   const runKey = randomBytes(24).toString('base64url');
   const fleet = syntheticTractors(o.units, benchSecretFor(runKey));
-  {
-    const began = performance.now();
-    const site = (await db.query<{ id: number }>(`select id from sites where key = 'north-yard'`)).rows[0].id;
-    const rev = (
-      await db.query<{ id: number }>(
-        `select r.id from design_revisions r join designs d on d.id = r.design_id where d.key = 'tractor-position' and r.revision = 1`,
-      )
-    ).rows[0].id;
-    const expectedIntervalMs = Math.max(1, Math.round(1000 / perEstimatorRate));
-    const client = await db.connect();
-    try {
-      await client.query('begin');
-      for (let i = 0; i < fleet.length; i += 2000) {
-        const part = fleet.slice(i, i + 2000);
-        const units = await client.query<{ id: number; key: string }>(
-          `insert into units (site_id, key, name, kind)
-           select $1, k, 'Synthetic ' || k, 'yard-tractor' from unnest($2::text[]) as k returning id, key`,
-          [site, part.map((u) => u.key)],
-        );
-        const ids = new Map(units.rows.map((r) => [r.key, r.id]));
-        await client.query(
-          `insert into estimators (unit_id, key, design_revision_id, measurement_dim, expected_interval_ms)
-           select id, 'position', $1, 2, $2 from unnest($3::int[]) as id`,
-          [rev, expectedIntervalMs, part.map((u) => ids.get(u.key))],
-        );
-        await client.query(
-          `insert into device_credentials (unit_id, username, secret_hash)
-           select * from unnest($1::int[], $2::text[], $3::text[])`,
-          [part.map((u) => ids.get(u.key)), part.map((u) => u.key), part.map((u) => hashDeviceSecret(u.secret))],
-        );
-      }
-      await client.query('commit');
-    } finally {
-      client.release();
-    }
-    log(`provisioned ${fmtInt(fleet.length)} units with an estimator (expected interval ${expectedIntervalMs} ms) and a device credential each in ${Math.round(performance.now() - began)} ms`);
-  }
+  await provisionSyntheticTractors(db, fleet, Math.max(1, Math.round(1000 / perEstimatorRate)));
 
   // -- the service
-  const httpPort = await freePort();
-  const mqttPort = await freePort();
   const profileDir = path.join(pgRoot, 'profile');
   const serviceLog = path.join(pgRoot, 'service.log');
-  const logStream = fs.createWriteStream(serviceLog);
-  service = spawn(process.execPath, [...SERVICE_NODE_FLAGS, ...o.nodeFlags, ...(o.profile ? ['--cpu-prof', `--cpu-prof-dir=${profileDir}`] : []), '--import', 'tsx', 'ingest/main.ts'], {
-    cwd: root,
-    env: {
-      ...process.env,
-      ...dbEnv,
-      WHITECAP_HTTP_HOST: '127.0.0.1',
-      WHITECAP_HTTP_PORT: String(httpPort),
-      WHITECAP_MQTT_HOST: '127.0.0.1',
-      WHITECAP_MQTT_PORT: String(mqttPort),
-      WHITECAP_LOG_LEVEL: 'warn',
-      WHITECAP_JWT_SECRET: randomBytes(32).toString('base64url'),
-      ...o.serviceEnv,
-    },
-    stdio: ['ignore', 'pipe', 'pipe'],
+  const started = await startBenchService({
+    dbUrl,
+    nodeFlags: [...o.nodeFlags, ...(o.profile ? ['--cpu-prof', `--cpu-prof-dir=${profileDir}`] : [])],
+    serviceEnv: o.serviceEnv,
+    logFile: serviceLog,
+    onSpawn: setNice,
   });
-  service.stdout!.pipe(logStream, { end: false });
-  service.stderr!.pipe(logStream, { end: false });
-  const servicePid = service.pid!;
-  setNice(servicePid);
-  const baseUrl = `http://127.0.0.1:${httpPort}`;
-  {
-    const deadline = Date.now() + 60_000;
-    while (true) {
-      if (service.exitCode !== null) throw new Error(`the service exited with ${service.exitCode}:\n${fs.readFileSync(serviceLog, 'utf8')}`);
-      try {
-        const res = await fetch(`${baseUrl}/api/health`);
-        if (res.status === 200) break;
-      } catch {
-        /* not up yet */
-      }
-      if (Date.now() > deadline) throw new Error(`the service did not become healthy within 60 s:\n${fs.readFileSync(serviceLog, 'utf8')}`);
-      await sleep(200);
-    }
-  }
-  const serviceUpAtMs = Date.now();
+  const { child: service, pid: servicePid, baseUrl, httpPort, mqttPort, logStream, upAtMs: serviceUpAtMs } = started;
   log(`service pid ${servicePid}: HTTP 127.0.0.1:${httpPort}, MQTT 127.0.0.1:${mqttPort}${o.profile ? ' (CPU profile on)' : ''}`);
   const metricsText = async () => (await fetch(`${baseUrl}/metrics`)).text();
 
@@ -634,7 +431,7 @@ async function main(): Promise<void> {
   await sleep(1000); // let the connection storm settle
   // CPU used by processes that are not ours (other work on a shared machine) over a few seconds.
   const otherLoadPct = async (ms: number): Promise<number> => {
-    const pgPid = postmasterPidOf();
+    const pgPid = currentPostmasterPid();
     const a = { machine: machineCpuSeconds(), ours: (treeCpuSeconds(servicePid) ?? 0) + (treeCpuSeconds(pgPid) ?? 0) + publishersCpuNow(), self: process.cpuUsage() };
     await sleep(ms);
     const self = process.cpuUsage(a.self);
@@ -654,7 +451,7 @@ async function main(): Promise<void> {
   if (o.pgStatements) await db.query('select pg_stat_statements_reset()');
   const walBefore = (await db.query<{ lsn: string }>('select pg_current_wal_lsn()::text as lsn')).rows[0].lsn;
   const bgBefore = (await db.query('select checkpoints_timed, checkpoints_req, buffers_checkpoint, buffers_backend from pg_stat_bgwriter')).rows[0];
-  const postmasterPid = postmasterPidOf();
+  const postmasterPid = currentPostmasterPid();
   const pgKindsBefore = childCpuByKind(postmasterPid, postgresKind);
 
   const startAtMs = Date.now() + 1000;
@@ -779,20 +576,7 @@ async function main(): Promise<void> {
   const bgAfter = (await db.query('select checkpoints_timed, checkpoints_req, buffers_checkpoint, buffers_backend from pg_stat_bgwriter')).rows[0];
   const rows = Number((await db.query<{ n: string }>('select count(*) as n from innovation_samples')).rows[0].n);
   // Every acknowledged sample, by unit and sequence number, must be a stored row.
-  const ranges = done.flatMap((d) => d.acked.flatMap((a) => a.ranges.map(([lo, hi]) => ({ unit: a.unitKey, lo, hi }))));
-  const matched = Number(
-    (
-      await db.query<{ n: string }>(
-        `with acked as (
-           select e.id as estimator_id, generate_series(x.lo, x.hi) as seq
-             from unnest($1::text[], $2::bigint[], $3::bigint[]) as x(unit_key, lo, hi)
-             join units u on u.key = x.unit_key
-             join estimators e on e.unit_id = u.id and e.key = 'position')
-         select count(*) as n from acked join innovation_samples s using (estimator_id, seq)`,
-        [ranges.map((r) => r.unit), ranges.map((r) => r.lo), ranges.map((r) => r.hi)],
-      )
-    ).rows[0].n,
-  );
+  const matched = await countStoredOfAcknowledged(db, done.flatMap((d) => d.acked));
   const quarantined = Number((await db.query<{ n: string }>('select count(*) as n from quarantine')).rows[0].n);
   const parts = (
     await db.query<{ name: string; total: string; tbl: string; idx: string; rows: string }>(
@@ -1104,10 +888,7 @@ async function main(): Promise<void> {
   }
 
   // -- PostgreSQL down, cluster removed
-  postgres.stop('fast');
-  fs.rmSync(pgRoot, { recursive: true, force: true });
-  postgres = null;
-  pgRoot = null;
+  stopBenchPostgres();
   log('stopped the service, the publishers and PostgreSQL; removed the cluster');
 }
 

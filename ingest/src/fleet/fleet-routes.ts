@@ -3,6 +3,7 @@ import type { FleetHeatmap, FleetResponse } from '../../../shared/src/api/api-ty
 import { fleetDiscoveries } from '../../../shared/src/index';
 import type { Clock } from '../clock';
 import { paging, route, text, type RouteDef } from '../http/route-table';
+import { SharedAnswerCache } from '../http/shared-answer-cache';
 import type { FleetRepository } from './fleet-repository';
 
 const verdict = z.enum(['consistent', 'marginal', 'inconsistent', 'silent']);
@@ -26,7 +27,13 @@ const heatmapQuery = z.object({
   limit: z.coerce.number().int().min(1).max(2000).default(200),
 });
 
-export function fleetRoutes(fleet: FleetRepository, clock: Clock): RouteDef[] {
+/**
+ * `cacheMs`: how long one computed fleet summary serves everyone asking the same question
+ * (0: every request computes its own). Many dashboards poll the same summary, and each
+ * computation reads every estimator's status.
+ */
+export function fleetRoutes(fleet: FleetRepository, clock: Clock, cacheMs = 0): RouteDef[] {
+  const summaries = new SharedAnswerCache<FleetResponse>(cacheMs, clock);
   return [
     route({
       method: 'get',
@@ -35,7 +42,7 @@ export function fleetRoutes(fleet: FleetRepository, clock: Clock): RouteDef[] {
       tag: 'fleet',
       summary: 'Every estimator with its verdict, last-sample age, window statistics and live alerts (paged, sorted, filtered)',
       query: fleetQuery,
-      handler: async ({ query }): Promise<FleetResponse> => {
+      handler: ({ query }): Promise<FleetResponse> => summaries.get(JSON.stringify(query), async () => {
         const now = clock.now();
         const [page, counts, liveAlerts, pValues] = await Promise.all([
           fleet.list(query, now),
@@ -57,7 +64,7 @@ export function fleetRoutes(fleet: FleetRepository, clock: Clock): RouteDef[] {
           liveAlerts,
           discoveries: { q: query.fdr, estimatorIds: discoveries },
         };
-      },
+      }),
     }),
     route({
       method: 'get',

@@ -31,13 +31,15 @@ export interface ApiSettings {
   alphaMarginal: number;
   lags: number;
   arl0: number;
+  /** How long one fleet summary serves everyone asking the same question (ms; 0: never shared). */
+  fleetCacheMs: number;
 }
 
 export function apiRoutes(knex: Knex, events: ServiceEvents, clock: Clock, settings: ApiSettings): RouteDef[] {
   const alertsRepo = new AlertsRepository(knex);
   const estimators = new EstimatorsRepository(knex);
   return [
-    ...fleetRoutes(new FleetRepository(knex), clock),
+    ...fleetRoutes(new FleetRepository(knex), clock, settings.fleetCacheMs),
     ...estimatorsRoutes(
       estimators,
       new SeriesService(estimators, { ...settings, statsSamples: 8_000 }),
