@@ -29,6 +29,20 @@ module.exports = {
       transform: tsNode,
     },
     {
+      displayName: 'faults',
+      testEnvironment: 'node',
+      roots: ['<rootDir>/test/faults'],
+      testMatch: ['**/*.test.ts'],
+      transform: tsNode,
+    },
+    {
+      displayName: 'hostile',
+      testEnvironment: 'node',
+      roots: ['<rootDir>/test/hostile'],
+      testMatch: ['**/*.test.ts'],
+      transform: tsNode,
+    },
+    {
       displayName: 'dashboard',
       preset: 'jest-preset-angular',
       roots: ['<rootDir>/dashboard'],

@@ -22,6 +22,11 @@ export function createMetrics() {
       labelNames: ['reason'] as const,
       registers: [registry],
     }),
+    rateLimited: new Counter({
+      name: 'whitecap_samples_rate_limited_total',
+      help: "Samples quarantined (rate_limit) because their unit sent more than its per-unit rate and burst allow",
+      registers: [registry],
+    }),
     held: new Counter({
       name: 'whitecap_publish_held_total',
       help: 'Publishes held back (read no further, acknowledged later) while the write queue was full',
@@ -60,6 +65,13 @@ export function createMetrics() {
     }),
     alertsOpened: new Counter({ name: 'whitecap_alerts_opened_total', help: 'Alerts opened, by rule', labelNames: ['rule'] as const, registers: [registry] }),
     estimatorsLive: new Gauge({ name: 'whitecap_estimators_streaming', help: 'Estimators with checks in memory', registers: [registry] }),
+    partitionsClaimed: new Gauge({ name: 'whitecap_partitions_claimed', help: 'Partitions of the fleet this worker holds (partitioned workers)', registers: [registry] }),
+    partitionReleases: new Counter({
+      name: 'whitecap_partition_releases_total',
+      help: 'Partitions this worker let go of, by reason (rebalance, shutdown, lost)',
+      labelNames: ['reason'] as const,
+      registers: [registry],
+    }),
   };
 }
 

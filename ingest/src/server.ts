@@ -11,6 +11,7 @@ import { apiRoutes } from './http/api-routes';
 import { UsersRepository } from './auth/users-repository';
 import { startBroker, type EmbeddedBroker } from './broker/broker';
 import { startExternalSubscriber, type ExternalSubscriber } from './broker/external-subscriber';
+import { PartitionClaims, UnitPartitions } from './broker/partition-claims';
 import { systemClock, type Clock } from './clock';
 import type { Config } from './config';
 import { createKnex } from './db/knex';
@@ -63,6 +64,8 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
     },
   });
   const registry = new EstimatorRegistry(knex);
+  const partitioned = config.mqtt.external !== null && config.partitions.claimed;
+  const unitPartitions = partitioned ? new UnitPartitions(knex) : null;
   const checkpoints = new CheckpointLoader(knex);
   const pipeline = new IngestPipeline(
     {
@@ -73,6 +76,9 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
       metrics,
       events,
       loadCheckpoint: (estimatorId) => checkpoints.load(estimatorId),
+      storedAfter: (estimatorId, seq) => checkpoints.storedAfter(estimatorId, seq),
+      // Partitioned workers: a message on a partition that is not its unit's is quarantined (wrong_partition).
+      partitionOf: unitPartitions ? (unitKey) => unitPartitions.of(unitKey) : undefined,
       async unitIdOf(unitKey) {
         const u = await knex('units').where({ key: unitKey }).first('id');
         return u ? Number(u.id) : null;
@@ -85,6 +91,8 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
       silenceFloorMs: config.ingest.silenceFloorMs,
       maxAgeMs: config.ingest.retentionDays * 86_400_000,
       alertPValue: config.ingest.alertPValue,
+      unitSamplesPerSecond: config.ingest.unitSamplesPerSecond,
+      unitBurstSamples: config.ingest.unitBurstSamples,
       monitor: {
         windowLength: config.ingest.windowLength,
         alpha: config.ingest.alpha,
@@ -99,18 +107,21 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
   try {
     const count = await registry.loadAll();
     logger.info({ estimators: count }, 'estimator registry loaded');
-    // Live alerts from before a restart: the rules pick them up so they clear in time.
-    const live = await knex('alerts').whereNot({ state: 'resolved' }).whereNotNull('estimator_id').select('estimator_id', 'rule', 'opened_at');
-    const byId = new Map([...registry.all()].map((e) => [e.id, e]));
-    for (const a of live) {
-      const info = byId.get(Number(a.estimator_id));
-      if (info) await pipeline.adoptLiveAlert(info, a.rule as RuleName, new Date(a.opened_at).getTime());
-    }
-    // Estimators seen before the restart are watched for silence from now on.
-    const seen = await knex('estimator_status').whereNotNull('last_received_at').pluck('estimator_id');
-    for (const id of seen) {
-      const info = byId.get(Number(id));
-      if (info) await pipeline.watch(info);
+    // Partitioned workers do this per partition, when they claim it (partition-claims.ts).
+    if (!partitioned) {
+      // Live alerts from before a restart: the rules pick them up so they clear in time.
+      const live = await knex('alerts').whereNot({ state: 'resolved' }).whereNotNull('estimator_id').select('estimator_id', 'rule', 'opened_at');
+      const byId = new Map([...registry.all()].map((e) => [e.id, e]));
+      for (const a of live) {
+        const info = byId.get(Number(a.estimator_id));
+        if (info) await pipeline.adoptLiveAlert(info, a.rule as RuleName, new Date(a.opened_at).getTime());
+      }
+      // Estimators seen before the restart are watched for silence from now on.
+      const seen = await knex('estimator_status').whereNotNull('last_received_at').pluck('estimator_id');
+      for (const id of seen) {
+        const info = byId.get(Number(id));
+        if (info) await pipeline.watch(info);
+      }
     }
   } catch (err) {
     // The database may be down at start; the service still starts and says so on /api/health.
@@ -131,6 +142,8 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
       backlog: () => writer.pendingSamples(),
       maxBacklog: config.ingest.maxQueuedSamples,
       onRefused: (reason) => metrics.refused.inc({ reason }),
+      maxPacketBytes: config.mqtt.maxPacketBytes,
+      connectsPerMinute: config.mqtt.connectsPerMinute,
       onHeld: () => metrics.held.inc(),
       onTaken: (seconds) => metrics.messageSeconds.observe(seconds),
     });
@@ -165,7 +178,24 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
   void dropExpired().catch((err: Error) => logger.warn({ err: err.message }, 'retention failed at start'));
 
   let external: ExternalSubscriber | null = null;
-  if (config.mqtt.external) {
+  let claims: PartitionClaims | null = null;
+  if (config.mqtt.external && unitPartitions) {
+    claims = new PartitionClaims({
+      databaseUrl: config.database.url,
+      partitions: config.partitions.count,
+      workerId: config.partitions.workerId,
+      clientIdPrefix: config.partitions.clientIdPrefix,
+      mqtt: { url: config.mqtt.external.url, username: config.mqtt.external.username, password: config.mqtt.external.password },
+      knex,
+      pipeline,
+      registry,
+      units: unitPartitions,
+      logger,
+      metrics,
+      clock,
+    });
+    claims.start();
+  } else if (config.mqtt.external) {
     external = startExternalSubscriber({
       ...config.mqtt.external,
       logger,
@@ -173,11 +203,11 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
     });
   }
 
-  const health = new HealthService(knex, () => broker ?? external, config.healthTimeoutMs, () => ({
+  const health = new HealthService(knex, () => broker ?? external ?? claims, config.healthTimeoutMs, () => ({
     writeQueueSamples: writer.pendingSamples(),
     writesFailing: writer.isFailing(),
     estimatorsStreaming: pipeline.streamCount(),
-  }));
+  }), clock);
   const secret = config.auth.jwtSecret ?? randomBytes(32).toString('base64url');
   if (!config.auth.jwtSecret) logger.info('no WHITECAP_JWT_SECRET set: using a random signing key for this run');
   const users = new UsersRepository(knex);
@@ -195,6 +225,7 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
     alphaMarginal: config.ingest.alphaMarginal,
     lags: 10,
     arl0: config.ingest.cusumArl0,
+    fleetCacheMs: config.http.fleetCacheMs,
   });
   // The notification side: who is on watch, pages and handoffs, webhooks, the outbox.
   const notifyRepo = new NotifyRepository(knex);
@@ -212,7 +243,8 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
       mailFrom: config.notify.mailFrom,
       maxAttempts: config.notify.maxAttempts,
       webhookTimeoutMs: config.notify.webhookTimeoutMs,
-    });
+      retryMaxMs: config.notify.retryMaxMs,
+    }, clock);
     const requeued = await notifyRepo.requeueSending().catch(() => 0);
     if (requeued > 0) logger.info({ requeued }, 'deliveries left sending by the last run are queued again');
     const n = notifier;
@@ -258,6 +290,8 @@ export async function startService(config: Config, logger: Logger, clock: Clock 
       // Stop taking messages first, then store what was taken, then checkpoint.
       if (broker) await broker.close();
       if (external) await external.close();
+      // Each partition: its connection closed, its checkpoints committed, then its lock released.
+      if (claims) await claims.stop();
       await pipeline.sweep().catch(() => undefined);
       await pipeline.checkpoint().catch(() => undefined);
       await writer.close();

@@ -56,7 +56,7 @@ describe('API: sign-in, sessions and roles', () => {
 
   it('documents every route of the route table in the OpenAPI document', () => {
     const knex = knexFactory({ client: 'pg' }); // never connects: only the table is read
-    const table = apiRoutes(knex, new ServiceEvents(), systemClock, { windowLength: 100, alpha: 0.001, alphaMarginal: 0.01, lags: 10, arl0: 1e7 });
+    const table = apiRoutes(knex, new ServiceEvents(), systemClock, { windowLength: 100, alpha: 0.001, alphaMarginal: 0.01, lags: 10, arl0: 1e7, fleetCacheMs: 0 });
     const documented = new Set(operations.map((o) => `${o.method} ${o.path}`));
     const declared = table.map((r) => `${r.method} ${openApiPath(r.path)}`);
     expect(declared.length).toBeGreaterThan(10);

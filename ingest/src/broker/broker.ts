@@ -6,6 +6,8 @@ import tls from 'node:tls';
 import type { Knex } from 'knex';
 import type { Logger } from '../logger';
 import { authenticateDevice } from './device-auth';
+import { guardPacketSize } from './packet-size-guard';
+import { TokenBuckets } from './unit-rate-limit';
 import { commandsTopic, parseInnovationsTopic } from './topics';
 
 import type { Aedes as AedesBroker, AuthenticateError, Client } from 'aedes';
@@ -35,6 +37,10 @@ export interface BrokerOptions {
   maxBacklog?: number;
   /** Counts refusals by reason (metrics). */
   onRefused?: (reason: string) => void;
+  /** A connection that sends a larger MQTT packet (declared in its header) is closed before the packet is read (refused: too_large). */
+  maxPacketBytes?: number;
+  /** Connection attempts per client id per minute, as a burst of this many refilled evenly; more are refused with CONNACK 3 (refused: connect_rate). */
+  connectsPerMinute?: number;
   /** Counts messages held back while the write queue is full (metrics). */
   onHeld?: () => void;
   /** Time from a message's arrival to its commit (or quarantine), in seconds (metrics). */
@@ -50,6 +56,7 @@ export interface EmbeddedBroker {
 }
 
 /** MQTT CONNACK return codes (MQTT 3.1.1, section 3.2.2.3). */
+const SERVER_UNAVAILABLE = 3;
 const BAD_USERNAME_OR_PASSWORD = 4;
 const NOT_AUTHORIZED = 5;
 
@@ -61,19 +68,35 @@ export async function startBroker(options: BrokerOptions): Promise<EmbeddedBroke
   const { knex, logger } = options;
   const { Aedes } = await import('aedes');
   const unitOf = new WeakMap<Client, string>();
+  const connects = options.connectsPerMinute
+    ? new TokenBuckets({ ratePerSecond: options.connectsPerMinute / 60, burst: options.connectsPerMinute })
+    : null;
+  let connectWarnedAt = 0;
   let messagesReceived = 0;
   // Back-pressure: messages being taken (parsed, checked, waiting for their commit) and
   // messages held in arrival order until there is room.
   let taking = 0;
   const held: (() => void)[] = [];
   const maxBacklog = options.maxBacklog ?? Number.POSITIVE_INFINITY;
-  const load = () => (options.backlog?.() ?? 0) + taking;
+  // Counted in samples, known before the message is parsed: held messages released together
+  // would otherwise count one each and bring up to a batch of samples each.
+  const load = () => Math.max(options.backlog?.() ?? 0, taking);
   const pump = () => {
     while (held.length > 0 && load() < maxBacklog * 0.75) held.shift()!();
   };
 
   const aedes = await Aedes.createBroker({
     authenticate(client, username, password, done) {
+      // Before anything costs a database query: a client reconnecting in a tight loop.
+      if (connects && !connects.take(client.id, 1, Date.now())) {
+        options.onRefused?.('connect_rate');
+        if (Date.now() - connectWarnedAt > 10_000) {
+          connectWarnedAt = Date.now();
+          logger.warn({ clientId: client.id, username }, 'connection refused: too many connects from this client id');
+        }
+        done(refusal('server unavailable: too many connects, try later', SERVER_UNAVAILABLE), false);
+        return;
+      }
       if (!username || !password) {
         done(refusal('anonymous connections are refused', NOT_AUTHORIZED), false);
         return;
@@ -90,7 +113,7 @@ export async function startBroker(options: BrokerOptions): Promise<EmbeddedBroke
         },
         (err: Error) => {
           logger.error({ err }, 'device sign-in could not be checked');
-          done(refusal('server unavailable', 3), false);
+          done(refusal('server unavailable', SERVER_UNAVAILABLE), false);
         },
       );
     },
@@ -108,8 +131,9 @@ export async function startBroker(options: BrokerOptions): Promise<EmbeddedBroke
       if (!handle) return done(null);
       const payload = Buffer.isBuffer(packet.payload) ? packet.payload : Buffer.from(packet.payload);
       const arrived = performance.now();
+      const weight = samplesIn(payload);
       const take = () => {
-        taking += 1;
+        taking += weight;
         handle(topic.unit, topic.estimator, packet.topic, payload)
           .then(
             () => {
@@ -122,7 +146,7 @@ export async function startBroker(options: BrokerOptions): Promise<EmbeddedBroke
             },
           )
           .finally(() => {
-            taking -= 1;
+            taking -= weight;
             pump();
           });
       };
@@ -141,7 +165,17 @@ export async function startBroker(options: BrokerOptions): Promise<EmbeddedBroke
     },
   });
 
-  const server = options.tls ? tls.createServer({ cert: options.tls.cert, key: options.tls.key }, aedes.handle) : net.createServer(aedes.handle);
+  const maxPacketBytes = options.maxPacketBytes;
+  const accept = (socket: net.Socket) => {
+    aedes.handle(socket);
+    if (maxPacketBytes) {
+      guardPacketSize(socket, maxPacketBytes, (declared) => {
+        options.onRefused?.('too_large');
+        logger.warn({ declared, maxPacketBytes, clientId: (socket as net.Socket & { client?: Client }).client?.id }, 'connection closed: MQTT packet over the size limit');
+      });
+    }
+  };
+  const server = options.tls ? tls.createServer({ cert: options.tls.cert, key: options.tls.key }, accept) : net.createServer(accept);
   await new Promise<void>((resolve, reject) => {
     server.once('error', reject);
     server.listen(options.port, options.host, () => {
@@ -164,4 +198,11 @@ export async function startBroker(options: BrokerOptions): Promise<EmbeddedBroke
         aedes.close(() => resolve());
       }),
   };
+}
+
+/** Samples a message carries, without parsing it: the batch form has one "seq" per sample. */
+function samplesIn(payload: Buffer): number {
+  let n = 0;
+  for (let i = payload.indexOf('"seq"'); i !== -1; i = payload.indexOf('"seq"', i + 5)) n += 1;
+  return Math.max(1, n);
 }

@@ -363,7 +363,16 @@ class WriteLane {
 
   /** The writer's own connection, kept between batches. */
   private async connection(): Promise<PoolClient> {
-    this.client ??= await this.pool.connect();
+    if (!this.client) {
+      const client = await this.pool.connect();
+      // A checked-out client has no error listener of the pool's: the server ending the
+      // session while it waits between batches would otherwise crash the process.
+      client.on('error', (err: Error) => {
+        this.logger.warn({ err: err.message }, 'the database ended the writer\'s connection');
+        if (this.client === client) this.dropConnection(err);
+      });
+      this.client = client;
+    }
     return this.client;
   }
 

@@ -16,6 +16,9 @@ import type { Clock } from '../clock';
 import type { ServiceEvents } from '../events';
 import type { Logger } from '../logger';
 import type { Metrics } from '../metrics';
+import { TokenBuckets } from '../broker/unit-rate-limit';
+import { parsePartitionedInnovationsTopic } from '../broker/topics';
+import { IntakeLag } from './intake-lag';
 import { AlertRuleState, ESTIMATOR_RULES, RULE_SEVERITY, conditionsFromReport, lostSamplesCondition, type RuleName } from './alert-rules';
 import type { AlertOp, BatchWriter, QuarantineRow, SampleRow, StatusRow, VerdictWord } from './batch-writer';
 import type { EstimatorInfo, EstimatorRegistry } from './estimator-registry';
@@ -45,6 +48,9 @@ export interface PipelineSettings {
   rulesEverySamples: number;
   /** An alert on a window test needs a p-value below this (default 1e-6; see alert-rules.ts). */
   alertPValue: number;
+  /** Samples a unit may send per second on average, and at once after a quiet spell; beyond, its messages are quarantined (rate_limit). */
+  unitSamplesPerSecond: number;
+  unitBurstSamples: number;
   /** Settings of the checks (window length, significance…); defaults from the shared library. */
   monitor: ConstructorParameters<typeof EstimatorMonitor>[0];
 }
@@ -62,6 +68,8 @@ export const DEFAULT_PIPELINE_SETTINGS: PipelineSettings = {
   silenceJudgedBelowQueue: 5000,
   alertPValue: 1e-6,
   rulesEverySamples: 10,
+  unitSamplesPerSecond: 2000,
+  unitBurstSamples: 60_000,
   // CUSUM designed for an in-control ARL of 10 million samples: at 1 sample/s, one false
   // signal per estimator in about 116 days.
   monitor: { arl0: 1e7 },
@@ -110,10 +118,61 @@ const LOSS_MEMORY = 200;
 
 const VERDICT_RANK: Record<VerdictWord, number> = { consistent: 0, marginal: 1, inconsistent: 2, silent: 3 };
 
+const FLOAT32_MAX = 3.4028234663852886e38;
+
+/**
+ * A value for a float32 (`real`) column: PostgreSQL refuses a number beyond float32's range
+ * (or too small to be anything but zero) with an error that fails the whole batch, so a
+ * valid sample with an extreme NIS would hold up every unit's writes. Saturated at ±FLT_MAX,
+ * rounded to float32 below it (underflowing to zero).
+ */
+function float32(x: number): number {
+  return x > FLOAT32_MAX ? FLOAT32_MAX : x < -FLOAT32_MAX ? -FLOAT32_MAX : Math.fround(x);
+}
+
 function toFloat32(values: ArrayLike<number>, m: number): Buffer {
   const b = Buffer.allocUnsafe(4 * m);
-  for (let i = 0; i < m; i++) b.writeFloatLE(values[i], 4 * i);
+  for (let i = 0; i < m; i++) b.writeFloatLE(float32(values[i]), 4 * i);
   return b;
+}
+
+/**
+ * A quarantine reason as PostgreSQL text takes it: the parser's and the schema's messages
+ * quote the payload, and a NUL character in a text value fails the whole batch.
+ */
+function reasonText(message: string): string {
+  const text = message.includes('\u0000') ? message.replace(/\u0000/g, '\\u0000') : message;
+  return text.length > 1000 ? `${text.slice(0, 999)}…` : text;
+}
+
+// RFC 3339 §5.6 date-time, the payload schema's "date-time": full date, "T" (or "t", or a
+// space, §5.6 note), full time, and a required offset. Date.parse takes far more: no offset
+// (read as the server's local time), "Nov 31" (as Dec 1), "24:00", RFC 2822 dates …
+const DATE_TIME = /^(\d{4})-(\d\d)-(\d\d)[Tt ](\d\d):(\d\d):(\d\d)(\.\d+)?([Zz]|[+-]\d\d:\d\d)$/;
+
+/** Epoch milliseconds of an RFC 3339 date-time, or NaN. A leap second (:60) is the first instant of the next minute. */
+export function rfc3339Ms(text: string): number {
+  const m = DATE_TIME.exec(text);
+  if (!m) return Number.NaN;
+  const [y, mo, d, h, mi, s] = [m[1], m[2], m[3], m[4], m[5], m[6]].map(Number);
+  const leap = y % 4 === 0 && (y % 100 !== 0 || y % 400 === 0);
+  const days = mo === 2 ? (leap ? 29 : 28) : mo === 4 || mo === 6 || mo === 9 || mo === 11 ? 30 : 31;
+  if (mo < 1 || mo > 12 || d < 1 || d > days || h > 23 || mi > 59 || s > 60) return Number.NaN;
+  let offsetMs = 0;
+  if (m[8].length > 1) {
+    const oh = Number(m[8].slice(1, 3));
+    const om = Number(m[8].slice(4, 6));
+    if (oh > 23 || om > 59) return Number.NaN;
+    offsetMs = (m[8][0] === '-' ? -1 : 1) * (oh * 60 + om) * 60_000;
+  }
+  const day = new Date(0);
+  day.setUTCFullYear(y, mo - 1, d); // (Date.UTC would read years 0–99 as 1900–1999)
+  return day.getTime() + ((h * 60 + mi) * 60 + s) * 1000 + (m[7] ? Number(`0${m[7]}`) * 1000 : 0) - offsetMs;
+}
+
+/** A sample time for a message: ISO 8601 when it is a date at all. */
+function timeText(ms: number): string {
+  return Math.abs(ms) <= 8.64e15 ? new Date(ms).toISOString() : `${ms} ms`;
 }
 
 export class IngestPipeline {
@@ -124,6 +183,8 @@ export class IngestPipeline {
   private readonly validatePayload: ValidateFunction;
   private readonly unitQuarantine = new Map<string, { times: number[]; rules: AlertRuleState; unitId: number | null }>();
   private readonly settings: PipelineSettings;
+  /** Per-unit token buckets on samples (keys are signed-in units, so the fleet bounds them). */
+  private readonly unitSamples: TokenBuckets;
 
   constructor(
     private readonly deps: {
@@ -134,13 +195,19 @@ export class IngestPipeline {
       metrics: Metrics;
       events: ServiceEvents;
       loadCheckpoint: (estimatorId: number) => Promise<{ state: unknown; status: Partial<StatusRow> | null } | null>;
+      /** Samples stored with a sequence number above `seq` (those committed after a checkpoint), in order. */
+      storedAfter?: (estimatorId: number, seq: number) => Promise<{ seq: number; t: number }[]>;
       unitIdOf: (unitKey: string) => Promise<number | null>;
+      /** A unit's provisioned partition (partitioned workers): a message on another partition's topic is quarantined. */
+      partitionOf?: (unitKey: string) => Promise<number | null>;
     },
     settings: Partial<PipelineSettings> = {},
   ) {
     this.settings = { ...DEFAULT_PIPELINE_SETTINGS, ...settings };
+    this.unitSamples = new TokenBuckets({ ratePerSecond: this.settings.unitSamplesPerSecond, burst: this.settings.unitBurstSamples, maxKeys: 100_000 });
     this.startedAtMs = deps.clock.now();
-    const ajv = new Ajv2020({ allErrors: false, strict: true, strictRequired: false, strictNumbers: false, validateFormats: false });
+    const ajv = new Ajv2020({ allErrors: false, strict: true, strictRequired: false, strictNumbers: false, validateFormats: true });
+    ajv.addFormat('date-time', { type: 'string', validate: (text: string) => !Number.isNaN(rfc3339Ms(text)) });
     this.validatePayload = ajv.compile(payloadSchema);
   }
 
@@ -174,6 +241,17 @@ export class IngestPipeline {
         message: `no estimator '${estimatorKey}' is registered on unit '${unitKey}'`,
       });
     }
+    // Partitioned workers: only the worker holding the unit's partition may feed its checks.
+    const onPartition = this.deps.partitionOf ? parsePartitionedInnovationsTopic(topic)?.partition : undefined;
+    if (onPartition !== undefined) {
+      const own = await this.deps.partitionOf!(unitKey);
+      if (own !== onPartition) {
+        return quarantineWhole(
+          { code: 'wrong_partition', message: `unit '${unitKey}' belongs to partition ${own}, not to partition ${onPartition} it published on` },
+          info.id,
+        );
+      }
+    }
     let body: unknown;
     try {
       body = JSON.parse(payload.toString('utf8'));
@@ -191,6 +269,17 @@ export class IngestPipeline {
     const obj = body as { samples?: RawSample[] } & RawSample;
     const raws: RawSample[] = obj.samples ?? [obj];
     m.samplesIn.inc(raws.length);
+    this.noteIntakeLag(raws, now);
+    if (!this.unitSamples.take(unitKey, raws.length, now)) {
+      m.rateLimited.inc(raws.length);
+      return quarantineWhole(
+        {
+          code: 'rate_limit',
+          message: `unit ${unitKey} sent more samples than its limit of ${this.settings.unitSamplesPerSecond}/s with bursts of ${this.settings.unitBurstSamples}: the ${raws.length} of this message were not taken`,
+        },
+        info.id,
+      );
+    }
 
     const stream = this.streams.get(info.id) ?? (await this.loadStream(info));
     const checksStarted = performance.now();
@@ -202,7 +291,7 @@ export class IngestPipeline {
     let duplicates = 0;
     for (let i = 0; i < raws.length; i++) {
       const raw = raws[i];
-      const tMs = typeof raw.t === 'number' ? raw.t : Date.parse(raw.t);
+      const tMs = typeof raw.t === 'number' ? raw.t : rfc3339Ms(raw.t);
       if (!Number.isFinite(tMs)) {
         rejected.push({ reason: { code: 'bad_time', message: `sample time ${JSON.stringify(raw.t)} is not a date-time` }, index: i });
         continue;
@@ -212,7 +301,7 @@ export class IngestPipeline {
         rejected.push({
           reason: {
             code: 'clock',
-            message: `sample time ${new Date(tMs).toISOString()} is ${ahead ? 'ahead of' : 'behind'} the service clock by ${Math.round(Math.abs(tMs - now) / 1000)} s (accepted: ${this.settings.maxFutureMs / 1000} s ahead, ${this.settings.maxAgeMs / 86_400_000} days behind)`,
+            message: `sample time ${timeText(tMs)} is ${ahead ? 'ahead of' : 'behind'} the service clock by ${Math.round(Math.abs(tMs - now) / 1000)} s (accepted: ${this.settings.maxFutureMs / 1000} s ahead, ${this.settings.maxAgeMs / 86_400_000} days behind)`,
           },
           index: i,
         });
@@ -234,9 +323,9 @@ export class IngestPipeline {
         estimatorId: info.id,
         tMs,
         seq: raw.seq,
-        nis: result.nis,
-        cusumUp: cusum.up,
-        cusumDown: cusum.down,
+        nis: float32(result.nis),
+        cusumUp: float32(cusum.up),
+        cusumDown: float32(cusum.down),
         nu: toFloat32(raw.nu, info.measurementDim),
         w: toFloat32(stream.monitor.lastWhitenedInnovation, info.measurementDim),
         exceeded,
@@ -292,7 +381,7 @@ export class IngestPipeline {
       samplesAdded: stream.unsavedSamples,
       window: summarizeReport(report),
       pValue: report.checks && Number.isFinite(report.pValue) ? report.pValue : null,
-      nisRatio: report.checks?.nis.ready && report.m ? report.checks.nis.average / report.m : null,
+      nisRatio: report.checks?.nis.ready && report.m ? float32(report.checks.nis.average / report.m) : null,
     };
     if (status) {
       stream.unsavedSamples = 0;
@@ -365,6 +454,19 @@ export class IngestPipeline {
           this.deps.logger.warn({ err: (err as Error).message, estimatorId: info.id }, 'checkpoint unusable; starting fresh');
         }
       }
+      if (monitor && this.deps.storedAfter) {
+        // After a stop without a last checkpoint (a crash, a lost worker), samples committed
+        // since the checkpoint were acknowledged and will not come again: the sequence check
+        // takes them, or it would count them as lost.
+        const stored = await this.deps.storedAfter(info.id, monitor.highestSeq).catch((err: Error) => {
+          this.deps.logger.warn({ err: err.message, estimatorId: info.id }, 'could not read the samples stored after the checkpoint');
+          return [];
+        });
+        if (stored.length > 0) {
+          const taken = monitor.markStored(stored);
+          this.deps.logger.info({ estimatorId: info.id, stored: stored.length, taken, fromSeq: stored[0].seq }, 'checks caught up with samples stored after their checkpoint');
+        }
+      }
       monitor ??= new EstimatorMonitor({ ...this.settings.monitor, m: info.measurementDim });
       const now = this.deps.clock.now();
       const st = saved?.status ?? null;
@@ -404,6 +506,41 @@ export class IngestPipeline {
     if (!this.streams.has(info.id)) await this.loadStream(info);
   }
 
+  /** The units whose estimators have checks in memory. */
+  streamUnitKeys(): Set<string> {
+    return new Set([...this.streams.values()].map((s) => s.info.unitKey));
+  }
+
+  /**
+   * Lets go of some units' estimators (a partitioned worker releasing a partition): with
+   * `save`, writes their status and checkpoints and waits for the commit; then forgets
+   * their checks, so a later claim loads them again from the checkpoints. Without `save`
+   * (the claim was lost: another worker may hold them already) nothing is written.
+   */
+  async release(unitKeys: Set<string>, save = true): Promise<number> {
+    await Promise.all(this.loading.values());
+    const now = this.deps.clock.now();
+    const rows: { unitKey: string; parts: { status: StatusRow[]; alerts: AlertOp[]; checkpoints: { estimatorId: number; state: unknown; samplesSeen: number }[] } }[] = [];
+    const alerts: AlertOp[] = [];
+    let forgotten = 0;
+    for (const [id, stream] of this.streams) {
+      if (!unitKeys.has(stream.info.unitKey)) continue;
+      this.streams.delete(id);
+      forgotten += 1;
+      if (!save) continue;
+      const r = this.refresh(stream, now, stream.verdict === 'silent');
+      const state = stream.monitor.serialize();
+      rows.push({ unitKey: stream.info.unitKey, parts: { ...r, checkpoints: [{ estimatorId: stream.info.id, state, samplesSeen: state.samples }] } });
+      alerts.push(...r.alerts);
+    }
+    for (const unitKey of unitKeys) this.unitQuarantine.delete(unitKey);
+    this.deps.metrics.estimatorsLive.set(this.streams.size);
+    // Each in its unit's lane, behind that unit's samples.
+    if (rows.length > 0) await this.deps.writer.writeByUnit(rows);
+    this.emitAlerts(alerts);
+    return forgotten;
+  }
+
   /** Adopts the live alerts found in the database at start, so they clear when their condition is gone. */
   async adoptLiveAlert(info: EstimatorInfo, rule: RuleName, openedAtMs: number): Promise<void> {
     const stream = this.streams.get(info.id) ?? (await this.loadStream(info));
@@ -430,7 +567,7 @@ export class IngestPipeline {
         estimatorId,
         topic,
         reasonCode: reason.code,
-        reason: reason.message,
+        reason: reasonText(reason.message),
         payload: kept,
         payloadBytes: payload.length,
         sampleIndex: index,
@@ -500,6 +637,9 @@ export class IngestPipeline {
     // While the service itself is behind (its writes queue up), quiet streams may be
     // waiting on us rather than silent: silence is judged only when we keep up.
     const behind = this.deps.writer.pendingSamples() > this.settings.silenceJudgedBelowQueue;
+    // And when messages reach the checks late (sockets not yet read, messages held by the
+    // broker), every unit's quiet is longer by that much: silence waits for it too.
+    const lag = this.intakeLagMs(now);
     const writes: { unitKey: string; parts: { status: StatusRow[]; alerts: AlertOp[] } }[] = [];
     const alerts: AlertOp[] = [];
     const verdictEvents: { stream: EstimatorStream; previous: VerdictWord }[] = [];
@@ -509,7 +649,7 @@ export class IngestPipeline {
       // Silence counts from the later of the last sample and this service's start: while the
       // service was down nobody could hear the units, and after a restart they need a moment
       // to reconnect before their quiet means anything.
-      const silent = !behind && now - Math.max(stream.lastReceivedAtMs, this.startedAtMs) > silentAfter;
+      const silent = !behind && now - Math.max(stream.lastReceivedAtMs, this.startedAtMs) > silentAfter + lag;
       const turnedSilent = silent && stream.verdict !== 'silent';
       if (turnedSilent) {
         verdictEvents.push({ stream, previous: stream.verdict });
@@ -517,7 +657,10 @@ export class IngestPipeline {
         stream.verdictSinceMs = now;
       }
       // (When samples come back, handle() sets the checks' verdict again.)
-      if (turnedSilent || now - stream.lastStatusAtMs >= this.settings.statusEveryMs) {
+      // A stream that publishes gets its status and rules looked at by handle(); the sweep
+      // takes those that have been quiet for two status periods (units sending a batch every
+      // few seconds would otherwise be refreshed here too, thousands in one turn).
+      if (turnedSilent || now - stream.lastStatusAtMs >= 2 * this.settings.statusEveryMs) {
         const r = this.refresh(stream, now, silent);
         writes.push({ unitKey: stream.info.unitKey, parts: r });
         alerts.push(...r.alerts);
@@ -563,6 +706,22 @@ export class IngestPipeline {
   }
 
   private checkpointCursor = 0;
+
+  private readonly intakeLag = new IntakeLag();
+
+  private noteIntakeLag(raws: RawSample[], now: number): void {
+    let newest = Number.NaN;
+    for (const r of raws) {
+      const t = typeof r.t === 'number' ? r.t : Date.parse(r.t);
+      if (Number.isFinite(t) && !(t <= newest)) newest = t;
+    }
+    this.intakeLag.note(newest, now);
+  }
+
+  /** How late messages reach the checks (ms; see intake-lag.ts). */
+  intakeLagMs(now: number): number {
+    return this.intakeLag.lagMs(now);
+  }
 }
 
 /** What the fleet screens need of a report, small enough to store per estimator. */
