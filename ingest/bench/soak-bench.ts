@@ -798,7 +798,9 @@ async function main(): Promise<void> {
   // -- the fleet and the people
   const runKey = randomBytes(24).toString('base64url');
   const fleet = syntheticTractors(o.units, benchSecretFor(runKey));
-  await provisionSyntheticTractors(db, fleet, Math.max(1, Math.round(1000 / o.rate)));
+  // A unit that sends a batch every few seconds is expected every few seconds: silence is
+  // judged on the time between its messages, not between its samples.
+  await provisionSyntheticTractors(db, fleet, Math.max(1, Math.round(1000 * Math.max(o.batchS, 1 / o.rate))));
   const password = randomBytes(18).toString('base64url');
   const people = Array.from({ length: o.users }, (_, i) => ({ email: `soak-viewer-${String(i + 1).padStart(3, '0')}@bench.example`, password }));
   if (people.length) {
