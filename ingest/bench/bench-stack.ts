@@ -12,7 +12,7 @@ import { LocalPostgres, freePort } from '../../scripts/lib/postgres.mjs';
 import { SERVICE_NODE_FLAGS, requireFromProject } from '../../scripts/lib/project.mjs';
 import type { SimulatedUnit } from '../../simulators/src/saltmarsh-fleet';
 import { hashDeviceSecret } from '../src/broker/device-auth';
-import type { AckedRanges } from './bench-fleet';
+import type { AckedRanges, WorkerCounts } from './bench-fleet';
 
 export const root = path.resolve(__dirname, '../..');
 
@@ -338,4 +338,27 @@ export async function startBenchService(o: {
     await sleep(200);
   }
   return { child: service, pid, baseUrl, httpPort, mqttPort, upAtMs: Date.now(), logStream };
+}
+
+/** The service's log lines counted by level and message ("warn: …"); a line that is not JSON counts by its first 120 characters. */
+export function countLogMessages(lines: readonly string[]): Map<string, number> {
+  const counts = new Map<string, number>();
+  for (const line of lines) {
+    let key = line.slice(0, 120);
+    try {
+      const j = JSON.parse(line) as { level?: number; msg?: string };
+      key = `${j.level === 40 ? 'warn' : j.level === 50 ? 'error' : j.level === 60 ? 'fatal' : `level ${j.level}`}: ${j.msg}`;
+    } catch {
+      /* not JSON */
+    }
+    counts.set(key, (counts.get(key) ?? 0) + 1);
+  }
+  return counts;
+}
+
+/** The publisher processes' counts added up. */
+export function sumWorkerCounts(counts: readonly WorkerCounts[]): WorkerCounts {
+  const total: WorkerCounts = { publishedMessages: 0, ackedMessages: 0, publishedSamples: 0, ackedSamples: 0, inFlightMessages: 0, skippedSamples: 0, windowFullTicks: 0, disconnects: 0, errors: 0 };
+  for (const c of counts) for (const k of Object.keys(total) as (keyof WorkerCounts)[]) total[k] += c[k];
+  return total;
 }

@@ -35,8 +35,10 @@ import {
   MB,
   benchPostgresSettings,
   cleanupNow,
+  countLogMessages,
   countStoredOfAcknowledged,
   fmtInt,
+  sumWorkerCounts,
   fmtMs,
   gitCommit,
   installCleanup,
@@ -634,27 +636,11 @@ async function main(): Promise<void> {
     log(`service output (${o.nodeFlags.join(' ')}): .output/bench/ingest-service.log`);
   }
   const logLines = serviceLogText.split('\n').filter(Boolean);
-  const logMessages = new Map<string, number>();
-  for (const line of logLines) {
-    let key = line.slice(0, 120);
-    try {
-      const j = JSON.parse(line) as { level?: number; msg?: string };
-      key = `${j.level === 40 ? 'warn' : j.level === 50 ? 'error' : j.level === 60 ? 'fatal' : `level ${j.level}`}: ${j.msg}`;
-    } catch {
-      /* not JSON */
-    }
-    logMessages.set(key, (logMessages.get(key) ?? 0) + 1);
-  }
+  const logMessages = countLogMessages(logLines);
   await db.end();
 
   // ---------------------------------------------------------------- figures
-  const totals = done.reduce(
-    (a, d) => {
-      for (const k of Object.keys(a) as (keyof WorkerCounts)[]) a[k] += d.counts[k];
-      return a;
-    },
-    { publishedMessages: 0, ackedMessages: 0, publishedSamples: 0, ackedSamples: 0, inFlightMessages: 0, skippedSamples: 0, windowFullTicks: 0, disconnects: 0, errors: 0 } as WorkerCounts,
-  );
+  const totals = sumWorkerCounts(done.map((d) => d.counts));
   const p2a = new LatencyHistogram();
   const steadyP2a = new LatencyHistogram();
   const s2a = new LatencyHistogram();

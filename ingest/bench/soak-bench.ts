@@ -55,8 +55,10 @@ import {
   MB,
   benchPostgresSettings,
   cleanupNow,
+  countLogMessages,
   countStoredOfAcknowledged,
   fmtInt,
+  sumWorkerCounts,
   fmtMs,
   gitCommit,
   installCleanup,
@@ -1148,28 +1150,12 @@ async function main(): Promise<void> {
   const serviceStopped = await waitForExit(svc.child, 30_000);
   if (!serviceStopped) svc.child.kill('SIGKILL');
   svc.logStream.end();
-  const logMessages = new Map<string, number>();
   // JSON lines by level and message (the indented lines of a stack trace left out).
-  for (const line of (fs.existsSync(serviceLog) ? fs.readFileSync(serviceLog, 'utf8') : '').split('\n').filter((l) => l && !/^\s/.test(l))) {
-    let key = line.slice(0, 120);
-    try {
-      const j = JSON.parse(line) as { level?: number; msg?: string };
-      key = `${j.level === 40 ? 'warn' : j.level === 50 ? 'error' : j.level === 60 ? 'fatal' : `level ${j.level}`}: ${j.msg}`;
-    } catch {
-      /* not JSON */
-    }
-    logMessages.set(key, (logMessages.get(key) ?? 0) + 1);
-  }
+  const logMessages = countLogMessages((fs.existsSync(serviceLog) ? fs.readFileSync(serviceLog, 'utf8') : '').split('\n').filter((l) => l && !/^\s/.test(l)));
   await db.end();
 
   // ---------------------------------------------------------------- figures
-  const totals = done.reduce(
-    (a, d) => {
-      for (const k of Object.keys(a) as (keyof WorkerCounts)[]) a[k] += d.counts[k];
-      return a;
-    },
-    { publishedMessages: 0, ackedMessages: 0, publishedSamples: 0, ackedSamples: 0, inFlightMessages: 0, skippedSamples: 0, windowFullTicks: 0, disconnects: 0, errors: 0 } as WorkerCounts,
-  );
+  const totals = sumWorkerCounts(done.map((d) => d.counts));
   const p2a = new LatencyHistogram();
   const steadyP2a = new LatencyHistogram();
   for (const d of done) {
