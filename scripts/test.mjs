@@ -7,7 +7,7 @@ import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { LocalPostgres, freePort } from './lib/postgres.mjs';
-import { bin, tsNode, ensureDashboardBuilt, ensureDependencies, requireFromProject, root } from './lib/project.mjs';
+import { bin, tsNode, ensureDashboardBuilt, ensureDependencies, ensureMosquitto, requireFromProject, root } from './lib/project.mjs';
 
 const log = (msg) => console.log(`[test] ${msg}`);
 // `npm test -- --quick …`: skip the type-check and the dashboard build (for quick local runs; CI never passes it).
@@ -31,18 +31,6 @@ function ensureChromium() {
 
 // The faults suite runs Debian's mosquitto on loopback as an external broker (its own
 // port and configuration; a system mosquitto on 1883, if the package started one, is not used).
-function ensureMosquitto() {
-  if (fs.existsSync('/usr/sbin/mosquitto')) return;
-  if (process.getuid?.() !== 0) {
-    throw new Error('Debian mosquitto is missing for the faults tests: sudo apt-get install -y mosquitto');
-  }
-  log('installing Debian\'s mosquitto for the faults tests (apt-get)…');
-  const env = { ...process.env, DEBIAN_FRONTEND: 'noninteractive' };
-  if (spawnSync('apt-get', ['update'], { stdio: 'inherit', env }).status !== 0) throw new Error('apt-get update failed');
-  const r = spawnSync('apt-get', ['install', '-y', '--no-install-recommends', 'mosquitto'], { stdio: 'inherit', env });
-  if (r.status !== 0) throw new Error('apt-get install mosquitto failed');
-}
-
 function typecheck() {
   for (const project of ['shared/tsconfig.json', 'ingest/tsconfig.json', 'dashboard/tsconfig.app.json', 'test/tsconfig.json', 'ingest/bench/tsconfig.json']) {
     if (!fs.existsSync(path.join(root, project))) continue;
@@ -54,7 +42,7 @@ function typecheck() {
 async function main() {
   ensureDependencies(log);
   ensureChromium();
-  ensureMosquitto();
+  ensureMosquitto(log);
   if (!quick) {
     typecheck();
     ensureDashboardBuilt(log);

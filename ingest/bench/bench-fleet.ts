@@ -33,6 +33,8 @@ export interface WorkerConfig {
   maxInFlightPerUnit: number;
   /** Units connecting at once. */
   connectConcurrency: number;
+  /** Partitions of the fleet: publish under whitecap/v1/partitions/{p}/… (unset: the unpartitioned topics). */
+  partitions?: number;
 }
 
 /**

@@ -12,6 +12,7 @@ import { LocalPostgres, freePort } from '../../scripts/lib/postgres.mjs';
 import { SERVICE_NODE_FLAGS, requireFromProject } from '../../scripts/lib/project.mjs';
 import type { SimulatedUnit } from '../../simulators/src/saltmarsh-fleet';
 import { hashDeviceSecret } from '../src/broker/device-auth';
+import { unitPartition } from '../src/broker/topics';
 import type { AckedRanges, WorkerCounts } from './bench-fleet';
 
 export const root = path.resolve(__dirname, '../..');
@@ -220,7 +221,13 @@ export function stopBenchPostgres(): void {
  * The synthetic tractors as units of the demo's north yard, each with one position
  * estimator (design tractor-position revision 1) and a device credential.
  */
-export async function provisionSyntheticTractors(db: pg.Pool, fleet: SimulatedUnit[], expectedIntervalMs: number): Promise<void> {
+export async function provisionSyntheticTractors(
+  db: pg.Pool,
+  fleet: SimulatedUnit[],
+  expectedIntervalMs: number,
+  /** When the fleet is partitioned: each unit is given its partition, as provisioning does. */
+  partitions?: number,
+): Promise<void> {
   const began = performance.now();
   const site = (await db.query<{ id: number }>(`select id from sites where key = 'north-yard'`)).rows[0].id;
   const rev = (
@@ -234,9 +241,9 @@ export async function provisionSyntheticTractors(db: pg.Pool, fleet: SimulatedUn
     for (let i = 0; i < fleet.length; i += 2000) {
       const part = fleet.slice(i, i + 2000);
       const units = await client.query<{ id: number; key: string }>(
-        `insert into units (site_id, key, name, kind)
-         select $1, k, 'Synthetic ' || k, 'yard-tractor' from unnest($2::text[]) as k returning id, key`,
-        [site, part.map((u) => u.key)],
+        `insert into units (site_id, key, name, kind, partition)
+         select $1, k, 'Synthetic ' || k, 'yard-tractor', p from unnest($2::text[], $3::int[]) as x(k, p) returning id, key`,
+        [site, part.map((u) => u.key), part.map((u) => (partitions ? unitPartition(u.key, partitions) : 0))],
       );
       const ids = new Map(units.rows.map((r) => [r.key, r.id]));
       await client.query(

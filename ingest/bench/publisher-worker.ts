@@ -5,7 +5,7 @@
 // is publish-to-commit) and reports counts every second.
 import mqtt, { type MqttClient } from 'mqtt';
 import { monitorEventLoopDelay } from 'node:perf_hooks';
-import { innovationsTopic } from '../src/broker/topics';
+import { innovationsTopic, partitionedInnovationsTopic, unitPartition } from '../src/broker/topics';
 import { batchPayload, singlePayload, type SimulatedSample } from '../../simulators/src/payload';
 import { PlantFilter } from '../../simulators/src/plant-filter';
 import { plantDesign } from '../../simulators/src/plant-models';
@@ -212,7 +212,10 @@ async function start(c: WorkerConfig): Promise<void> {
     index: c.from + i,
     key: f.key,
     secret: f.secret,
-    topic: innovationsTopic(f.key, f.estimators[0].key),
+    // Behind an external broker with partitioned workers, a unit publishes under its partition (as provisioned).
+    topic: c.partitions
+      ? partitionedInnovationsTopic(unitPartition(f.key, c.partitions), f.key, f.estimators[0].key)
+      : innovationsTopic(f.key, f.estimators[0].key),
     client: null,
     filter: null,
     // spreads each unit's samples over the period instead of one burst per tick

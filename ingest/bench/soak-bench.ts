@@ -76,6 +76,8 @@ import {
   waitForExit,
 } from './bench-stack';
 import { LatencyHistogram, type HistogramData } from './latency-histogram';
+import { LiveHeapProbe, type LiveHeap } from './live-heap-probe';
+import { freePort } from '../../scripts/lib/postgres.mjs';
 import { machineCpuSeconds, rssBytes, treeCpuSeconds } from './proc-sampler';
 
 const resultsDir = path.join(__dirname, 'results');
@@ -105,6 +107,7 @@ interface Options {
   faultFactor: number;
   faultAtS: number | null;
   serviceEnv: Record<string, string>;
+  liveHeapS: number;
   write: boolean;
   name: string;
 }
@@ -130,6 +133,9 @@ const HELP = `npm run bench:soak -- [options]
   --fault-factor F    noise standard deviation ×F (default 3)
   --fault-at S        seconds into the run the fault starts (default 30 % of the run; 60 with --quick)
   --service-env K=V   an extra environment variable for the service (repeatable)
+  --live-heap S       seconds between full garbage collections forced through the service's
+                      inspector, each followed by a read of what is left (default 60; 0 = none).
+                      Each stops the service for one full collection.
   --name NAME         write ingest/bench/results/soak-NAME.{json,md} (default: latest)
   --no-write          do not write the results files
 `;
@@ -152,6 +158,7 @@ function parseOptions(argv: string[]): Options {
     faultFactor: 3,
     faultAtS: null,
     serviceEnv: {},
+    liveHeapS: 60,
     write: true,
     name: 'latest',
   };
@@ -208,6 +215,9 @@ function parseOptions(argv: string[]): Options {
         break;
       case '--row':
         o.rowS = num(a, next(), 1);
+        break;
+      case '--live-heap':
+        o.liveHeapS = num(a, next(), 0);
         break;
       case '--fault-units':
         o.faultUnits = Math.round(num(a, next(), 0));
@@ -817,9 +827,10 @@ async function main(): Promise<void> {
 
   // -- the service
   const serviceLog = path.join(pgRoot, 'service.log');
+  const inspectPort = o.liveHeapS > 0 ? await freePort() : null;
   const svc = await startBenchService({
     dbUrl,
-    nodeFlags: [],
+    nodeFlags: inspectPort === null ? [] : [`--inspect=127.0.0.1:${inspectPort}`],
     // 50 people signing in within a minute from one address would trip the sign-in limit meant for guessing.
     serviceEnv: { WHITECAP_SIGN_IN_PER_MINUTE: '1000', ...o.serviceEnv },
     logFile: serviceLog,
@@ -827,6 +838,7 @@ async function main(): Promise<void> {
   const servicePid = svc.pid;
   log(`service pid ${servicePid}: HTTP 127.0.0.1:${svc.httpPort}, MQTT 127.0.0.1:${svc.mqttPort}`);
   const metricsText = async () => (await fetch(`${svc.baseUrl}/metrics`)).text();
+  const heapProbe = inspectPort === null ? null : await LiveHeapProbe.connect(inspectPort);
 
   // -- publishers (bench:ingest's publisher-worker.ts)
   const faultUnits = Array.from({ length: o.faultUnits }, (_, k) => Math.floor(((k + 0.5) * o.units) / o.faultUnits));
@@ -981,6 +993,9 @@ async function main(): Promise<void> {
   // -- sampling, once a second
   const seconds: Second[] = [];
   const probes: Probe[] = [];
+  const liveHeaps: (LiveHeap & { tS: number })[] = [];
+  let liveHeapInFlight = false;
+  let liveHeapNextS = o.liveHeapS;
   const rows: Row[] = [];
   const sum = (f: (c: WorkerCounts) => number) => latest.reduce((a, c) => a + (c ? f(c) : 0), 0);
   const streamEventsNow = () => {
@@ -1047,6 +1062,16 @@ async function main(): Promise<void> {
         )
         .catch(() => undefined /* the service too busy to answer: the other figures say so */)
         .finally(() => (probeInFlight = false));
+    }
+    if (heapProbe && s.tS >= liveHeapNextS && !liveHeapInFlight) {
+      liveHeapInFlight = true;
+      liveHeapNextS += o.liveHeapS;
+      const tS = s.tS;
+      heapProbe
+        .measure()
+        .then((h) => liveHeaps.push({ tS, ...h }))
+        .catch((e: Error) => log(`live heap probe at +${tS} s failed: ${e.message}`))
+        .finally(() => (liveHeapInFlight = false));
     }
     const rowDue = s.tS - rowStart.tS >= o.rowS - 0.01 || now >= endAtMs;
     if (rowDue) {
@@ -1146,6 +1171,7 @@ async function main(): Promise<void> {
   );
 
   // -- stop the service
+  heapProbe?.close();
   svc.child.kill('SIGTERM');
   const serviceStopped = await waitForExit(svc.child, 30_000);
   if (!serviceStopped) svc.child.kill('SIGKILL');
@@ -1186,6 +1212,9 @@ async function main(): Promise<void> {
   const rssValues = seconds.map((s) => s.serviceRssMB).filter((x): x is number => x !== null);
   const rssTrend = memoryTrend(rssPoints, 2);
   const heapTrend = memoryTrend(heapPoints, 2);
+  const liveAfterWarmup = liveHeaps.filter((h) => h.tS >= o.warmupS);
+  const liveHeapTrend = memoryTrend(liveAfterWarmup.map((h) => ({ x: h.tS, y: h.heapUsedMB })), 2);
+  const liveExternalTrend = memoryTrend(liveAfterWarmup.map((h) => ({ x: h.tS, y: h.externalMB })), 2);
 
   // live streams
   const streamsMin = seconds.length ? Math.min(...seconds.map((s) => s.streamsOpen)) : ready.streamsOpen;
@@ -1324,6 +1353,13 @@ async function main(): Promise<void> {
       serviceRssMaxMB: rssValues.length ? Math.max(...rssValues) : null,
       serviceRssAfterWarmup: rssTrend,
       serviceHeapUsedAfterWarmup: heapTrend,
+      liveHeapEveryS: o.liveHeapS || null,
+      liveHeapAfterWarmup: heapProbe ? liveHeapTrend : null,
+      liveExternalAfterWarmup: heapProbe ? liveExternalTrend : null,
+      liveHeap: liveHeaps,
+      liveHeapMethod: heapProbe
+        ? `every ${o.liveHeapS} s a full garbage collection forced through the service's inspector (HeapProfiler.collectGarbage), then process.memoryUsage() read inside the service; the slope is fitted to these points after the warm-up`
+        : null,
       method: `least-squares slope of the ${TREND_WINDOW_S}-s floors (the lowest value in each ${TREND_WINDOW_S} s: what is left after a garbage collection) of the once-a-second VmRSS, and of the JS heap used from the service's /metrics every 5 s, after the warm-up; ± is an approximate 95 % interval; flat: the whole interval below the threshold; growing: above zero and the slope over the threshold; otherwise not settled`,
     },
     cpu: {
@@ -1378,10 +1414,14 @@ function markdown(r: any): string {
   const ls = r.liveStreams;
   const c = r.cpu;
   const mem = r.memory;
-  const trend = (x: { slopeMBPerMin: number | null; ci95MBPerMin: number | null; verdict: string; points: number; thresholdMBPerMin: number }) =>
+  const trend = (
+    x: { slopeMBPerMin: number | null; ci95MBPerMin: number | null; verdict: string; points: number; thresholdMBPerMin: number },
+    of = `the ${TREND_WINDOW_S}-s floors`,
+    unit = 'floors',
+  ) =>
     x.slopeMBPerMin === null
       ? x.verdict
-      : `slope of the ${TREND_WINDOW_S}-s floors ${x.slopeMBPerMin >= 0 ? '+' : ''}${x.slopeMBPerMin} ± ${x.ci95MBPerMin} MB/min (${x.points} floors): **${x.verdict}** (threshold ${x.thresholdMBPerMin} MB/min)`;
+      : `slope of ${of} ${x.slopeMBPerMin >= 0 ? '+' : ''}${x.slopeMBPerMin} ± ${x.ci95MBPerMin} MB/min (${x.points} ${unit}): **${x.verdict}** (threshold ${x.thresholdMBPerMin} MB/min)`;
   const lines: string[] = [];
   lines.push('# Soak benchmark (`npm run bench:soak`)');
   lines.push('');
@@ -1434,6 +1474,13 @@ function markdown(r: any): string {
   lines.push(`| other alerts (healthy estimators, or not from the checks) | ${Object.keys(a.otherAlerts).length ? Object.entries(a.otherAlerts).map(([k, v]) => `${k}: ${v}`).join(', ') : 'none'} |`);
   lines.push(`| service RSS | start ${mem.serviceRssStartMB} MB, end ${mem.serviceRssEndMB} MB, max ${mem.serviceRssMaxMB} MB; after the ${r.load.warmupS}-s warm-up ${trend(mem.serviceRssAfterWarmup)} |`);
   lines.push(`| service JS heap used | after the warm-up ${trend(mem.serviceHeapUsedAfterWarmup)} |`);
+  if (mem.liveHeapAfterWarmup) {
+    const lh = mem.liveHeap as (LiveHeap & { tS: number })[];
+    const pauses = lh.map((h) => h.pauseMs).sort((x, y) => x - y);
+    lines.push(
+      `| service memory kept (after a full collection every ${mem.liveHeapEveryS} s) | JS heap ${lh.length ? `${lh[0].heapUsedMB} MB at +${Math.round(lh[0].tS)} s, ${lh.at(-1)!.heapUsedMB} MB at +${Math.round(lh.at(-1)!.tS)} s` : 'n/a'}; after the warm-up ${trend(mem.liveHeapAfterWarmup, 'the readings', 'readings')}; external (Buffers and other native memory held by JS objects) ${trend(mem.liveExternalAfterWarmup, 'the readings', 'readings')}; each forced collection stopped the service for ${pauses.length ? `${pauses[0]}–${pauses.at(-1)} ms` : 'n/a'} |`,
+    );
+  }
   lines.push(`| CPU (100 % = one core of ${r.machine.cores * 100} %) | service **${c.servicePct} %** (${c.serviceCpuUsPerMessage} µs per message, ${c.serviceCpuUsPerSample} µs per sample), PostgreSQL **${c.postgresPct} %**, publishers **${c.publishersPct} %**, dashboard users ${c.dashboardUsersPct} %, this benchmark ${c.benchmarkItselfPct} %, other processes ${c.otherPct} %; machine busy ${c.machineBusyPct} % |`);
   lines.push(`| service | write queue max ${fmtInt(r.service.maxWriteQueue)} samples; event-loop delay p99 up to ${r.service.loopDelayP99MaxMs} ms; GC ${r.service.gcSeconds} s; stopped cleanly: ${r.service.stoppedCleanly ? 'yes' : 'no'}; log: ${
       Object.keys(r.service.logMessages).length
@@ -1454,6 +1501,16 @@ function markdown(r: any): string {
     );
   }
   lines.push('');
+  if (mem.liveHeap?.length) {
+    lines.push('What the service keeps, after a full garbage collection forced through its inspector:');
+    lines.push('');
+    lines.push('| t (s) | JS heap MB | external MB | of which ArrayBuffers MB | RSS MB | collection and read, ms |');
+    lines.push('| ---: | ---: | ---: | ---: | ---: | ---: |');
+    for (const h of mem.liveHeap as (LiveHeap & { tS: number })[]) {
+      lines.push(`| ${Math.round(h.tS)} | ${h.heapUsedMB} | ${h.externalMB} | ${h.arrayBuffersMB} | ${h.rssMB} | ${fmtInt(h.pauseMs)} |`);
+    }
+    lines.push('');
+  }
   if (r.postgresStatements.length) {
     lines.push('PostgreSQL statements by total time (pg_stat_statements, during the run):');
     lines.push('');

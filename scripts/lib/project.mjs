@@ -105,3 +105,16 @@ export function waitForHttp(url, timeoutMs = 60_000) {
     attempt();
   });
 }
+
+/** Debian's mosquitto, the external broker of the faults tests and bench:partitioned (apt-get when missing, as root). */
+export function ensureMosquitto(log = console.log) {
+  if (fs.existsSync('/usr/sbin/mosquitto')) return;
+  if (process.getuid?.() !== 0) {
+    throw new Error('Debian mosquitto is missing (the faults tests and bench:partitioned use it): sudo apt-get install -y mosquitto');
+  }
+  log('installing Debian\'s mosquitto (apt-get)…');
+  const env = { ...process.env, DEBIAN_FRONTEND: 'noninteractive' };
+  if (spawnSync('apt-get', ['update'], { stdio: 'inherit', env }).status !== 0) throw new Error('apt-get update failed');
+  const r = spawnSync('apt-get', ['install', '-y', '--no-install-recommends', 'mosquitto'], { stdio: 'inherit', env });
+  if (r.status !== 0) throw new Error('apt-get install mosquitto failed');
+}

@@ -27,6 +27,11 @@ export class Mosquitto {
     return `mqtt://127.0.0.1:${this.port}`;
   }
 
+  /** The running broker's process id (null while stopped). */
+  get pid(): number | null {
+    return this.child?.pid ?? null;
+  }
+
   get logFile(): string {
     return path.join(this.dir, 'mosquitto.log');
   }
