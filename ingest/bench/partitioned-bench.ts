@@ -67,20 +67,20 @@ const HELP = `npm run bench:partitioned -- [options]
   --workers W       partitioned ingest workers (default 1)
   --partitions P    partitions of the fleet; each is one MQTT session with mosquitto (default 16)
   --units N         synthetic tractors, one estimator and one MQTT connection each (default 2000)
-  --rate R          samples per second per estimator (default 5)
-  --batch B         samples per message (default 5)
+  --rate R          samples per second per estimator (default 10)
+  --batch B         samples per message (default 10, the message docs/scaling.md plans with)
   --duration S      seconds of load (default 120)
   --warmup S        seconds left out of the sustained rate (default 30)
   --publishers N    publisher processes (default 2)
   --name NAME       write ingest/bench/results/partitioned-NAME.{json,md} (default: latest)
   --no-write        do not write the results files
 
-Offer more than the workers can take (the default offers 10,000 samples/s in 2,000
+Offer more than the workers can take (the default offers 20,000 samples/s in 2,000
 messages/s) and the committed rate is their capacity; mosquitto holds the rest until
 the workers have drained it after the load.`;
 
 function parseOptions(argv: string[]): Options {
-  const o: Options = { workers: 1, partitions: 16, units: 2000, rate: 5, batch: 5, durationS: 120, warmupS: 30, publishers: 2, name: 'latest', write: true };
+  const o: Options = { workers: 1, partitions: 16, units: 2000, rate: 10, batch: 10, durationS: 120, warmupS: 30, publishers: 2, name: 'latest', write: true };
   const num = (name: string, v: string | undefined, min: number): number => {
     const n = Number(v);
     if (v === undefined || !Number.isFinite(n) || n < min) throw new Error(`${name} needs a number ≥ ${min}, got ${v}`);

@@ -133,9 +133,10 @@ const HELP = `npm run bench:soak -- [options]
   --fault-factor F    noise standard deviation ×F (default 3)
   --fault-at S        seconds into the run the fault starts (default 30 % of the run; 60 with --quick)
   --service-env K=V   an extra environment variable for the service (repeatable)
-  --live-heap S       seconds between full garbage collections forced through the service's
-                      inspector, each followed by a read of what is left (default 60; 0 = none).
-                      Each stops the service for one full collection.
+  --live-heap S       also force a full garbage collection through the service's inspector every
+                      S seconds and read what is left (default 0 = never). Each stops the service
+                      for 1-3 s at this load and can tip it into falling behind; the service's own
+                      reading after its natural full collections is taken in every run.
   --name NAME         write ingest/bench/results/soak-NAME.{json,md} (default: latest)
   --no-write          do not write the results files
 `;
@@ -158,7 +159,7 @@ function parseOptions(argv: string[]): Options {
     faultFactor: 3,
     faultAtS: null,
     serviceEnv: {},
-    liveHeapS: 60,
+    liveHeapS: 0,
     write: true,
     name: 'latest',
   };
@@ -699,6 +700,9 @@ interface Second {
 interface Probe {
   tS: number;
   heapUsedMB: number;
+  /** The old generation after the service's last full collection (null before the first). */
+  oldAfterFullGcMB: number | null;
+  externalMB: number;
   writeQueue: number;
   loopDelayP99Ms: number;
 }
@@ -722,6 +726,7 @@ interface Row {
   serviceRssMinMB: number | null;
   serviceRssMaxMB: number | null;
   serviceHeapUsedMB: number | null;
+  serviceKeptMB: number | null;
   serviceCpuPct: number | null;
   postgresCpuPct: number | null;
   publishersCpuPct: number | null;
@@ -1056,6 +1061,10 @@ async function main(): Promise<void> {
           probes.push({
             tS,
             heapUsedMB: round(metric(text, 'whitecap_process_nodejs_heap_size_used_bytes') / MB)!,
+            oldAfterFullGcMB: Number.isFinite(metric(text, 'whitecap_process_old_generation_after_full_gc_bytes'))
+              ? round(metric(text, 'whitecap_process_old_generation_after_full_gc_bytes') / MB)
+              : null,
+            externalMB: round(metric(text, 'whitecap_process_nodejs_external_memory_bytes') / MB)!,
             writeQueue: metric(text, 'whitecap_write_queue_samples'),
             loopDelayP99Ms: round(metric(text, 'whitecap_process_nodejs_eventloop_lag_p99_seconds') * 1000, 1)!,
           }),
@@ -1080,6 +1089,7 @@ async function main(): Promise<void> {
       const rowPct = (a: number, b: number) => round(((a - b) / span) * 100);
       const rssIn = inRow.map((x) => x.serviceRssMB).filter((x): x is number => x !== null);
       const heap = probes.filter((p) => p.tS > rowStart.tS && p.tS <= s.tS).at(-1)?.heapUsedMB ?? null;
+      const kept = probes.filter((p) => p.tS > rowStart.tS && p.tS <= s.tS).at(-1)?.oldAfterFullGcMB ?? null;
       const fleetErrors = usersState.latest?.fleetErrors ?? 0;
       const row: Row = {
         fromS: Math.round(rowStart.tS),
@@ -1100,6 +1110,7 @@ async function main(): Promise<void> {
         serviceRssMinMB: rssIn.length ? Math.min(...rssIn) : null,
         serviceRssMaxMB: rssIn.length ? Math.max(...rssIn) : null,
         serviceHeapUsedMB: heap,
+        serviceKeptMB: kept,
         serviceCpuPct: rowPct(c.service, rowStart.service),
         postgresCpuPct: rowPct(c.postgres, rowStart.postgres),
         publishersCpuPct: rowPct(c.publishers, rowStart.publishers),
@@ -1212,6 +1223,9 @@ async function main(): Promise<void> {
   const rssValues = seconds.map((s) => s.serviceRssMB).filter((x): x is number => x !== null);
   const rssTrend = memoryTrend(rssPoints, 2);
   const heapTrend = memoryTrend(heapPoints, 2);
+  const afterGcPoints = probes.filter((p) => p.tS >= o.warmupS && p.oldAfterFullGcMB !== null).map((p) => ({ x: p.tS, y: p.oldAfterFullGcMB! }));
+  const afterGcTrend = memoryTrend(afterGcPoints, 2);
+  const externalTrend = memoryTrend(probes.filter((p) => p.tS >= o.warmupS).map((p) => ({ x: p.tS, y: p.externalMB })), 2);
   const liveAfterWarmup = liveHeaps.filter((h) => h.tS >= o.warmupS);
   const liveHeapTrend = memoryTrend(liveAfterWarmup.map((h) => ({ x: h.tS, y: h.heapUsedMB })), 2);
   const liveExternalTrend = memoryTrend(liveAfterWarmup.map((h) => ({ x: h.tS, y: h.externalMB })), 2);
@@ -1353,6 +1367,14 @@ async function main(): Promise<void> {
       serviceRssMaxMB: rssValues.length ? Math.max(...rssValues) : null,
       serviceRssAfterWarmup: rssTrend,
       serviceHeapUsedAfterWarmup: heapTrend,
+      oldGenerationAfterFullGc: {
+        firstMB: probes.find((p) => p.oldAfterFullGcMB !== null)?.oldAfterFullGcMB ?? null,
+        lastMB: probes.at(-1)?.oldAfterFullGcMB ?? null,
+        maxMB: Math.max(...probes.map((p) => p.oldAfterFullGcMB ?? 0)),
+        afterWarmup: afterGcTrend,
+        note: "the service's own metric whitecap_process_old_generation_after_full_gc_bytes (V8's old generation right after its last full collection), read every 5 s",
+      },
+      externalAfterWarmup: externalTrend,
       liveHeapEveryS: o.liveHeapS || null,
       liveHeapAfterWarmup: heapProbe ? liveHeapTrend : null,
       liveExternalAfterWarmup: heapProbe ? liveExternalTrend : null,
@@ -1474,6 +1496,12 @@ function markdown(r: any): string {
   lines.push(`| other alerts (healthy estimators, or not from the checks) | ${Object.keys(a.otherAlerts).length ? Object.entries(a.otherAlerts).map(([k, v]) => `${k}: ${v}`).join(', ') : 'none'} |`);
   lines.push(`| service RSS | start ${mem.serviceRssStartMB} MB, end ${mem.serviceRssEndMB} MB, max ${mem.serviceRssMaxMB} MB; after the ${r.load.warmupS}-s warm-up ${trend(mem.serviceRssAfterWarmup)} |`);
   lines.push(`| service JS heap used | after the warm-up ${trend(mem.serviceHeapUsedAfterWarmup)} |`);
+  if (mem.oldGenerationAfterFullGc) {
+    const g = mem.oldGenerationAfterFullGc;
+    lines.push(
+      `| **what the service keeps** (old generation after each full collection) | ${g.firstMB ?? 'n/a'} MB at the first reading, ${g.lastMB ?? 'n/a'} MB at the end, max ${g.maxMB} MB; after the warm-up ${trend(g.afterWarmup)}; external memory (Buffers: messages in hand) ${trend(mem.externalAfterWarmup)} |`,
+    );
+  }
   if (mem.liveHeapAfterWarmup) {
     const lh = mem.liveHeap as (LiveHeap & { tS: number })[];
     const pauses = lh.map((h) => h.pauseMs).sort((x, y) => x - y);
@@ -1491,13 +1519,13 @@ function markdown(r: any): string {
         : 'nothing at warn or above'
     } |`);
   lines.push('');
-  lines.push('Over time (service CPU, PostgreSQL, publishers, users and other processes in % of one core; fleet-table latency of the requests in the row):');
+  lines.push('Over time (service CPU, PostgreSQL, publishers, users and other processes in % of one core; fleet-table latency of the requests in the row; heap: the JS heap in use at the last reading in the row; kept: the old generation after the last full collection of the service):');
   lines.push('');
-  lines.push('| t (s) | committed samples/s | PUBACK p99 | fleet p50 / p95 / p99 ms | requests | streams open (min) | events | RSS MB (min–max) | heap MB | CPU service / PG / publishers / users / other |');
-  lines.push('| ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | --- |');
+  lines.push('| t (s) | committed samples/s | PUBACK p99 | fleet p50 / p95 / p99 ms | requests | streams open (min) | events | RSS MB (min–max) | heap MB | kept MB | CPU service / PG / publishers / users / other |');
+  lines.push('| ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | --- |');
   for (const row of r.rows as Row[]) {
     lines.push(
-      `| ${row.fromS}–${row.toS} | ${fmtInt(row.ackedSamplesPerS)} | ${fmtMs(row.pubackP99MaxMs)} | ${row.fleetP50Ms ?? '–'} / ${row.fleetP95Ms ?? '–'} / ${row.fleetP99Ms ?? '–'} | ${row.fleetRequests}${row.fleetErrors ? ` (${row.fleetErrors} failed)` : ''} | ${row.streamsOpenMin} | ${fmtInt(row.streamEvents)} | ${row.serviceRssMinMB}–${row.serviceRssMaxMB} | ${row.serviceHeapUsedMB ?? '–'} | ${row.serviceCpuPct} / ${row.postgresCpuPct} / ${row.publishersCpuPct} / ${row.usersCpuPct} / ${row.otherPct} |`,
+      `| ${row.fromS}–${row.toS} | ${fmtInt(row.ackedSamplesPerS)} | ${fmtMs(row.pubackP99MaxMs)} | ${row.fleetP50Ms ?? '–'} / ${row.fleetP95Ms ?? '–'} / ${row.fleetP99Ms ?? '–'} | ${row.fleetRequests}${row.fleetErrors ? ` (${row.fleetErrors} failed)` : ''} | ${row.streamsOpenMin} | ${fmtInt(row.streamEvents)} | ${row.serviceRssMinMB}–${row.serviceRssMaxMB} | ${row.serviceHeapUsedMB ?? '–'} | ${row.serviceKeptMB ?? '–'} | ${row.serviceCpuPct} / ${row.postgresCpuPct} / ${row.publishersCpuPct} / ${row.usersCpuPct} / ${row.otherPct} |`,
     );
   }
   lines.push('');

@@ -1,9 +1,20 @@
 // The service's own health and load, in the Prometheus text format at /metrics.
 import { Counter, Gauge, Histogram, Registry, collectDefaultMetrics } from 'prom-client';
+import { afterFullGc } from './heap-after-gc';
 
 export function createMetrics() {
   const registry = new Registry();
   collectDefaultMetrics({ register: registry, prefix: 'whitecap_process_' });
+  afterFullGc();
+  new Gauge({
+    name: 'whitecap_process_old_generation_after_full_gc_bytes',
+    help: 'V8 old generation in use right after the last full (mark-compact) collection: what the service keeps',
+    registers: [registry],
+    collect() {
+      const v = afterFullGc().oldGenerationBytes;
+      if (Number.isFinite(v)) this.set(v);
+    },
+  });
   return {
     registry,
     messagesIn: new Counter({ name: 'whitecap_messages_in_total', help: 'MQTT innovation messages received', registers: [registry] }),
