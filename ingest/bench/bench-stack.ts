@@ -2,7 +2,7 @@
 // cluster (migrated and seeded), synthetic tractors provisioned with device credentials,
 // the real service as a child process on free ports, and the clean-up that stops all of
 // it and removes the cluster, also on Ctrl-C or an error. Plus small formatting helpers.
-import { execFileSync, spawn, type ChildProcess } from 'node:child_process';
+import { execFileSync, fork, spawn, type ChildProcess } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
 import fs from 'node:fs';
 import os from 'node:os';
@@ -13,7 +13,8 @@ import { SERVICE_NODE_FLAGS, requireFromProject } from '../../scripts/lib/projec
 import type { SimulatedUnit } from '../../simulators/src/saltmarsh-fleet';
 import { hashDeviceSecret } from '../src/broker/device-auth';
 import { unitPartition } from '../src/broker/topics';
-import type { AckedRanges, WorkerCounts } from './bench-fleet';
+import type { AckedRanges, FromWorker, ToWorker, WorkerConfig, WorkerCounts } from './bench-fleet';
+import { treeCpuSeconds } from './proc-sampler';
 
 export const root = path.resolve(__dirname, '../..');
 
@@ -368,4 +369,86 @@ export function sumWorkerCounts(counts: readonly WorkerCounts[]): WorkerCounts {
   const total: WorkerCounts = { publishedMessages: 0, ackedMessages: 0, publishedSamples: 0, ackedSamples: 0, inFlightMessages: 0, skippedSamples: 0, windowFullTicks: 0, disconnects: 0, errors: 0 };
   for (const c of counts) for (const k of Object.keys(total) as (keyof WorkerCounts)[]) total[k] += c[k];
   return total;
+}
+
+export interface Publishers {
+  children: ChildProcess[];
+  /** Each publisher's latest counts (null before its first report). */
+  latest: (WorkerCounts | null)[];
+  /** The publishers' final reports, in the order they came. */
+  done: Extract<FromWorker, { type: 'done' }>[];
+  /** Settles when every publisher has connected its units; rejects on the first failure. */
+  connected: Promise<void>;
+  /** Settles when every publisher has reported and ended (or exited). */
+  finished: Promise<void>;
+  /** The first failure (an error message, or an exit before the final report). */
+  failure(): Error | null;
+  /** The publishers' CPU seconds from /proc; a publisher that has exited keeps its last value. */
+  cpuSeconds(): number;
+}
+
+/**
+ * Forks one publisher-worker.ts per config, sends each its config and registers them for
+ * clean-up. `onMessage` sees every message too (progress, faults) for the benchmark's own figures.
+ */
+export function forkPublishers(configs: WorkerConfig[], onMessage: (index: number, m: FromWorker) => void = () => undefined): Publishers {
+  const children: ChildProcess[] = [];
+  const latest: (WorkerCounts | null)[] = [];
+  const done: Extract<FromWorker, { type: 'done' }>[] = [];
+  const connectedWaiters: Promise<void>[] = [];
+  const finishedWaiters: Promise<void>[] = [];
+  const lastCpu = configs.map(() => 0);
+  let failure: Error | null = null;
+  configs.forEach((config, w) => {
+    const child = fork(path.join(__dirname, 'publisher-worker.ts'), [], { cwd: root, execArgv: ['--import', 'tsx'], stdio: ['ignore', 'inherit', 'inherit', 'ipc'] });
+    children.push(child);
+    stack.workers.push(child);
+    latest.push(null);
+    let onConnected!: () => void;
+    let onFail!: (err: Error) => void;
+    let onDone!: () => void;
+    connectedWaiters.push(
+      new Promise<void>((resolve, reject) => {
+        onConnected = resolve;
+        onFail = (err) => {
+          failure ??= err;
+          reject(err);
+        };
+      }),
+    );
+    // A failure after the connection would be an unhandled rejection of the settled promise otherwise.
+    connectedWaiters[w].catch(() => undefined);
+    finishedWaiters.push(new Promise<void>((resolve) => (onDone = resolve)));
+    let reported = false;
+    child.on('message', (m: FromWorker) => {
+      if (m.type === 'connected') onConnected();
+      else if (m.type === 'progress') latest[w] = m.counts;
+      else if (m.type === 'done') {
+        reported = true;
+        latest[w] = m.counts;
+        done.push(m);
+        onDone();
+      } else if (m.type === 'error') onFail(new Error(`publisher ${w + 1}: ${m.message}`));
+      onMessage(w, m);
+    });
+    child.on('exit', (code) => {
+      if (!reported) onFail(new Error(`publisher ${w + 1} exited with ${code} before its report`));
+      onDone();
+    });
+    child.send({ type: 'config', config } satisfies ToWorker);
+  });
+  return {
+    children,
+    latest,
+    done,
+    connected: Promise.all(connectedWaiters).then(() => undefined),
+    finished: Promise.all(finishedWaiters).then(() => undefined),
+    failure: () => failure,
+    cpuSeconds: () =>
+      children.reduce((a, c, i) => {
+        const v = c.pid ? treeCpuSeconds(c.pid) : null;
+        if (v !== null) lastCpu[i] = v;
+        return a + lastCpu[i];
+      }, 0),
+  };
 }

@@ -13,7 +13,6 @@
  * workers have drained mosquitto's queue, and checks that every sample mosquitto
  * acknowledged is stored exactly once.
  */
-import { fork } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
 import fs from 'node:fs';
 import os from 'node:os';
@@ -22,7 +21,7 @@ import pg from 'pg';
 import { syntheticTractors } from '../../simulators/src/saltmarsh-fleet';
 import { ensureMosquitto } from '../../scripts/lib/project.mjs';
 import { Mosquitto } from '../../test/support/mosquitto';
-import { benchSecretFor, type FromWorker, type ToWorker, type WorkerConfig, type WorkerCounts } from './bench-fleet';
+import { benchSecretFor, type ToWorker, type WorkerConfig, type WorkerCounts } from './bench-fleet';
 import {
   MB,
   benchPostgresSettings,
@@ -30,6 +29,7 @@ import {
   countLogMessages,
   countStoredOfAcknowledged,
   fmtInt,
+  forkPublishers,
   gitCommit,
   installCleanup,
   log,
@@ -225,57 +225,31 @@ async function main(): Promise<void> {
   };
 
   // -- publishers
-  const publishers: ReturnType<typeof fork>[] = [];
-  const latest: (WorkerCounts | null)[] = [];
-  const done: Extract<FromWorker, { type: 'done' }>[] = [];
-  const connected: Promise<void>[] = [];
-  const finished: Promise<void>[] = [];
   const per = Math.ceil(o.units / o.publishers);
-  for (let p = 0; p < o.publishers; p++) {
-    const child = fork(path.join(__dirname, 'publisher-worker.ts'), [], { cwd: root, execArgv: ['--import', 'tsx'], stdio: ['ignore', 'inherit', 'inherit', 'ipc'] });
-    stack.workers.push(child);
-    publishers.push(child);
-    latest.push(null);
-    let onConnected!: () => void;
-    let onFail!: (e: Error) => void;
-    let onDone!: () => void;
-    connected.push(new Promise((resolve, reject) => ((onConnected = resolve), (onFail = reject))));
-    finished.push(new Promise((resolve) => (onDone = resolve)));
-    child.on('message', (m: FromWorker) => {
-      if (m.type === 'connected') onConnected();
-      else if (m.type === 'progress') latest[p] = m.counts;
-      else if (m.type === 'done') {
-        latest[p] = m.counts;
-        done.push(m);
-        onDone();
-      } else if (m.type === 'error') onFail(new Error(`publisher ${p + 1}: ${m.message}`));
-    });
-    child.on('exit', (code) => {
-      onFail(new Error(`publisher ${p + 1} exited with ${code}`));
-      onDone();
-    });
-    const config: WorkerConfig = {
-      url: broker.url,
-      runKey,
-      totalUnits: o.units,
-      from: p * per,
-      to: Math.min(o.units, (p + 1) * per),
-      rate: o.rate,
-      rampS: 0,
-      batch: o.batch,
-      reference: false,
-      faultUnits: [],
-      faultFactor: 1,
-      seed: 20261202,
-      maxInFlightPerUnit: 20,
-      connectConcurrency: 50,
-      partitions: o.partitions,
-    };
-    child.send({ type: 'config', config } satisfies ToWorker);
-  }
-  await Promise.all(connected);
+  const configs: WorkerConfig[] = Array.from({ length: o.publishers }, (_, p) => ({
+    url: broker.url,
+    runKey,
+    totalUnits: o.units,
+    from: p * per,
+    to: Math.min(o.units, (p + 1) * per),
+    rate: o.rate,
+    rampS: 0,
+    batch: o.batch,
+    reference: false,
+    faultUnits: [],
+    faultFactor: 1,
+    seed: 20261202,
+    maxInFlightPerUnit: 20,
+    connectConcurrency: 50,
+    partitions: o.partitions,
+  }));
+  const pubs = forkPublishers(configs);
+  const publishers = pubs.children;
+  const latest = pubs.latest;
+  const done = pubs.done;
+  await pubs.connected;
   log(`${o.publishers} publisher processes: ${fmtInt(o.units)} units connected to mosquitto`);
-  const publishersCpu = () => publishers.reduce((a, c) => a + (treeCpuSeconds(c.pid!) ?? 0), 0);
+  const publishersCpu = () => pubs.cpuSeconds();
   const postmasterPid = postmasterPidOf(postgres);
   const brokerPid = broker.pid!;
 
@@ -313,6 +287,8 @@ async function main(): Promise<void> {
       machine: machineCpuSeconds(),
     };
     for (const v of views) if (v.svc.child.exitCode !== null) throw new Error(`${v.name} exited during the run`);
+    const failed = pubs.failure();
+    if (failed) throw failed;
     const counts = sumWorkerCounts(latest.filter((x): x is WorkerCounts => x !== null));
     const s: Second = {
       tS: round((now - startAtMs) / 1000, 1)!,
@@ -348,7 +324,7 @@ async function main(): Promise<void> {
 
   // -- stop the units; wait for the workers to drain mosquitto's queue
   for (const c of publishers) c.send({ type: 'stop', drainMs: 60_000 } satisfies ToWorker);
-  await Promise.all(finished);
+  await pubs.finished;
   if (done.length !== publishers.length) throw new Error('a publisher ended without its report');
   const totals = sumWorkerCounts(done.map((d) => d.counts));
   const drainStart = Date.now();
