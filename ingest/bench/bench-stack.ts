@@ -348,14 +348,15 @@ export async function startBenchService(o: {
   return { child: service, pid, baseUrl, httpPort, mqttPort, upAtMs: Date.now(), logStream };
 }
 
-/** The service's log lines counted by level and message ("warn: …"); a line that is not JSON counts by its first 120 characters. */
+/** The service's log lines counted by level, message and error ("warn: … (error)"); a line that is not JSON counts by its first 120 characters. */
 export function countLogMessages(lines: readonly string[]): Map<string, number> {
   const counts = new Map<string, number>();
   for (const line of lines) {
     let key = line.slice(0, 120);
     try {
-      const j = JSON.parse(line) as { level?: number; msg?: string };
-      key = `${j.level === 40 ? 'warn' : j.level === 50 ? 'error' : j.level === 60 ? 'fatal' : `level ${j.level}`}: ${j.msg}`;
+      const j = JSON.parse(line) as { level?: number; msg?: string; err?: string | { message?: string } };
+      const err = typeof j.err === 'string' ? j.err : j.err?.message;
+      key = `${j.level === 40 ? 'warn' : j.level === 50 ? 'error' : j.level === 60 ? 'fatal' : `level ${j.level}`}: ${j.msg}${err ? ` (${err.slice(0, 80)})` : ''}`;
     } catch {
       /* not JSON */
     }

@@ -181,6 +181,8 @@ async function main(): Promise<void> {
 
   // -- the workers, one after another so that each takes its fair share as it joins
   const prefix = `bench-${randomBytes(3).toString('hex')}-`;
+  // The workers' logs outlive the run (mosquitto's folder does not).
+  const logDir = fs.mkdtempSync(path.join(os.tmpdir(), 'whitecap-partitioned-logs-'));
   const views: WorkerView[] = [];
   for (let w = 0; w < o.workers; w++) {
     const name = `worker-${w + 1}`;
@@ -195,7 +197,7 @@ async function main(): Promise<void> {
         WHITECAP_WORKER_ID: name,
         WHITECAP_NOTIFICATIONS: 'false',
       },
-      logFile: path.join(broker.dir, `${name}.log`),
+      logFile: path.join(logDir, `${name}.log`),
     });
     stack.workers.push(svc.child);
     views.push({ name, svc, stored: 0, claimed: [] });
@@ -330,9 +332,12 @@ async function main(): Promise<void> {
   const drainStart = Date.now();
   const drainDeadline = drainStart + 15 * 60_000;
   let storedTotal = 0;
+  // The workers alone (the units idle): their committed rate while at least a tenth of the backlog is left.
+  const drainPoints: { tMs: number; stored: number; cpu: number[] }[] = [];
   while (true) {
     const stored = await Promise.all(views.map(storedNow));
     storedTotal = stored.reduce((a, x, i) => a + x - storedAtStart[i], 0);
+    drainPoints.push({ tMs: Date.now(), stored: storedTotal, cpu: views.map((v) => treeCpuSeconds(v.svc.pid) ?? 0) });
     if (storedTotal >= totals.ackedSamples) break;
     if (Date.now() > drainDeadline) {
       log(`drain: ${fmtInt(totals.ackedSamples - storedTotal)} samples still not stored after 15 min`);
@@ -341,7 +346,14 @@ async function main(): Promise<void> {
     await sleep(500);
   }
   const drainS = round((Date.now() - drainStart) / 1000, 1)!;
-  log(`drained mosquitto's backlog in ${drainS} s`);
+  const backlogAtDrain = totals.ackedSamples - (drainPoints[0]?.stored ?? 0);
+  const busy = drainPoints.filter((p) => totals.ackedSamples - p.stored >= 0.1 * backlogAtDrain);
+  const d0 = busy[0];
+  const d1 = busy.at(-1);
+  const drainSpanS = d0 && d1 ? (d1.tMs - d0.tMs) / 1000 : 0;
+  const drainRate = drainSpanS >= 5 ? round((d1!.stored - d0!.stored) / drainSpanS, 0) : null;
+  const drainCpuPct = drainSpanS >= 5 ? d1!.cpu.map((c, i) => round(((c - d0!.cpu[i]) / drainSpanS) * 100)) : null;
+  log(`drained mosquitto's backlog in ${drainS} s${drainRate !== null ? `; ${fmtInt(drainRate)} samples/s with the units idle` : ''}`);
 
   // -- exactly once
   const matched = await countStoredOfAcknowledged(db, done.flatMap((d) => d.acked));
@@ -350,12 +362,25 @@ async function main(): Promise<void> {
     (await db.query<{ n: string }>('select count(*) as n from (select 1 from innovation_samples group by estimator_id, seq having count(*) > 1) d')).rows[0].n,
   );
   const quarantined = Number((await db.query<{ n: string }>('select count(*) as n from quarantine')).rows[0].n);
-  const claims = (
-    await db.query<{ partition: number; holders: string }>(
-      `select partition, count(distinct worker_id)::int as holders from partition_claims group by partition order by partition`,
-    )
-  ).rows;
-  const logs = views.map((v) => fs.readFileSync(path.join(broker.dir, `${v.name}.log`), 'utf8').split('\n'));
+  // Each partition held by one worker at a time: claims of two workers on one partition never overlap.
+  const handovers = Number(
+    (
+      await db.query<{ n: string }>(
+        `select count(*) as n from partition_claims a join partition_claims b on b.partition = a.partition and b.claimed_at > a.claimed_at and b.worker_id <> a.worker_id
+          where not exists (select 1 from partition_claims c where c.partition = a.partition and c.claimed_at > a.claimed_at and c.claimed_at < b.claimed_at)`,
+      )
+    ).rows[0].n,
+  );
+  const overlaps = Number(
+    (
+      await db.query<{ n: string }>(
+        `select count(*) as n from partition_claims a join partition_claims b on b.partition = a.partition and b.id > a.id and b.worker_id <> a.worker_id
+          where a.claimed_at < coalesce(b.released_at, 'infinity') and b.claimed_at < coalesce(a.released_at, 'infinity')`,
+      )
+    ).rows[0].n,
+  );
+  const logs = views.map((v) => fs.readFileSync(path.join(logDir, `${v.name}.log`), 'utf8').split('\n'));
+  log(`the workers' logs: ${logDir}`);
   const logMessages = countLogMessages(logs.flat().filter((l) => l.trim() !== ''));
   const dropped = broker.droppedMessages();
 
@@ -396,6 +421,10 @@ async function main(): Promise<void> {
       // The publishers report their counts once a second, the workers are read each second: near zero, a few hundred either way.
       backlogAtEndSamples: Math.max(0, end.ackedByBroker - end.storedByWorker.reduce((a, b) => a + b, 0)),
       drainS,
+      /** The workers' committed rate with the units idle, while at least a tenth of the backlog was left (null: too short a drain to tell). */
+      drainSamplesPerS: drainRate,
+      drainWindowS: round(drainSpanS, 1),
+      drainWorkersCpuPct: drainCpuPct,
     },
     delivery: {
       publishedSamples: totals.publishedSamples,
@@ -405,7 +434,8 @@ async function main(): Promise<void> {
       storedRows: rows,
       duplicates,
       quarantined,
-      partitionsWithMoreThanOneHolder: claims.filter((c) => Number(c.holders) > 1).length,
+      handovers,
+      claimsOverlapping: overlaps,
       brokerDropped: dropped.length,
     },
     cpu: {
@@ -464,8 +494,13 @@ function markdown(r: any): string {
     lines.push(`| ${w.name} | ${w.partitions} partitions, **${fmtInt(w.committedPerS)} samples/s**, CPU ${w.cpuPct} %, RSS max ${w.rssMaxMB} MB |`);
   }
   lines.push(`| backlog in mosquitto when the load ended | about ${fmtInt(t.backlogAtEndSamples)} samples; drained in ${t.drainS} s |`);
+  if (t.drainSamplesPerS !== null) {
+    lines.push(
+      `| **draining the backlog, units idle** (the workers' capacity without the simulated units on the same cores) | **${fmtInt(t.drainSamplesPerS)} samples/s** (${fmtInt(t.drainSamplesPerS / r.load.batch)} messages/s, ${round(t.drainSamplesPerS / r.load.batch / r.load.partitions, 1)} per partition session) over ${t.drainWindowS} s; worker CPU ${t.drainWorkersCpuPct.join(' + ')} % |`,
+    );
+  }
   lines.push(
-    `| delivery | ${fmtInt(d.acknowledgedByBroker)} samples acknowledged by mosquitto, ${fmtInt(d.storedOfAcknowledged)} of them stored, **${fmtInt(d.lost)} missing**, **${fmtInt(d.duplicates)} stored twice**; ${fmtInt(d.quarantined)} quarantined; partitions with more than one holder: ${d.partitionsWithMoreThanOneHolder}; mosquitto notices of dropped messages: ${d.brokerDropped} |`,
+    `| delivery | ${fmtInt(d.acknowledgedByBroker)} samples acknowledged by mosquitto, ${fmtInt(d.storedOfAcknowledged)} of them stored, **${fmtInt(d.lost)} missing**, **${fmtInt(d.duplicates)} stored twice**; ${fmtInt(d.quarantined)} quarantined; partitions handed from one worker to another: ${d.handovers}, **held by two workers at once: ${d.claimsOverlapping}**; mosquitto notices of dropped messages: ${d.brokerDropped} |`,
   );
   lines.push(
     `| CPU (100 % = one core of ${r.machine.cores * 100} %) | workers ${c.workersPct.join(' + ')} % (${c.workerUsPerSample} µs per sample), mosquitto ${c.mosquittoPct} %, PostgreSQL ${c.postgresPct} %, publishers ${c.publishersPct} %; machine busy ${c.machineBusyPct} % |`,

@@ -140,6 +140,8 @@ export class PartitionClaims implements MessageSource {
   private stopping = false;
   /** Rounds, releases and the handling of a lost session run one after another. */
   private queue: Promise<void> = Promise.resolve();
+  /** The last query sent on the session (see q). */
+  private inFlight: Promise<void> = Promise.resolve();
   private rounds = 0;
   private messagesOfClosed = 0;
   private warnedOutside = false;
@@ -169,7 +171,7 @@ export class PartitionClaims implements MessageSource {
       for (const p of [...this.held.keys()].sort((a, b) => a - b)) await this.release(p, 'shutdown');
       const session = this.session;
       if (session) {
-        await session.query('delete from ingest_workers where worker_id = $1 and backend_pid = pg_backend_pid()', [this.o.workerId]).catch(() => undefined);
+        await this.q(session, 'delete from ingest_workers where worker_id = $1 and backend_pid = pg_backend_pid()', [this.o.workerId]).catch(() => undefined);
         this.session = null;
         await session.end().catch(() => undefined);
       }
@@ -218,8 +220,18 @@ export class PartitionClaims implements MessageSource {
     return next;
   }
 
+  /**
+   * One query at a time on the session: the rounds and the subscribers' reconnection checks
+   * (stillHolds) share it, and a pg client takes a second query while one runs only with a
+   * deprecation warning (an error in pg 9).
+   */
   private q<R extends pg.QueryResultRow>(session: pg.Client, text: string, values: unknown[] = []): Promise<pg.QueryResult<R>> {
-    return session.query<R>(text, values);
+    const run = this.inFlight.then(() => session.query<R>(text, values));
+    this.inFlight = run.then(
+      () => undefined,
+      () => undefined,
+    );
+    return run;
   }
 
   /** One round: the session, the heartbeat, the locks held, then releases or claims. */
