@@ -3,6 +3,7 @@
 // and an unknown key is remembered for a short while so a misconfigured unit cannot
 // turn every message into a query.
 import type { Knex } from 'knex';
+import { ExpiringKeys } from './expiring-keys';
 
 export interface EstimatorInfo {
   id: number;
@@ -16,10 +17,12 @@ export interface EstimatorInfo {
 }
 
 const UNKNOWN_TTL_MS = 30_000;
+/** Unknown estimators remembered at most (a unit inventing keys cannot grow memory past this). */
+const UNKNOWN_MAX = 10_000;
 
 export class EstimatorRegistry {
   private readonly byKey = new Map<string, EstimatorInfo>();
-  private readonly unknownUntil = new Map<string, number>();
+  private readonly unknown = new ExpiringKeys(UNKNOWN_TTL_MS, UNKNOWN_MAX);
 
   constructor(private readonly knex: Knex) {}
 
@@ -69,16 +72,15 @@ export class EstimatorRegistry {
     const key = `${unitKey}/${estimatorKey}`;
     const hit = this.byKey.get(key);
     if (hit) return hit;
-    const until = this.unknownUntil.get(key);
-    if (until !== undefined && until > nowMs) return undefined;
+    if (this.unknown.has(key, nowMs)) return undefined;
     const row = await this.query().where({ 'u.key': unitKey, 'e.key': estimatorKey }).first();
     if (!row) {
-      this.unknownUntil.set(key, nowMs + UNKNOWN_TTL_MS);
+      this.unknown.add(key, nowMs);
       return undefined;
     }
     const info = EstimatorRegistry.toInfo(row);
     this.byKey.set(key, info);
-    this.unknownUntil.delete(key);
+    this.unknown.delete(key);
     return info;
   }
 }

@@ -15,22 +15,8 @@ import { formatAge, formatDateTime } from '../time/age';
 import { TickingClock } from '../time/ticking-clock';
 import { QuarantineApi, type QuarantineQuery } from './quarantine-api';
 import { settleAfterFirst } from '../time/settle';
+import { REASON_WORDS } from './quarantine-reasons';
 
-/** What the reason codes mean, in words. */
-const REASON_WORDS: Record<string, string> = {
-  too_large: 'message over 256 KiB',
-  unknown_estimator: 'no such estimator registered',
-  not_json: 'not JSON',
-  schema: 'does not match the payload schema',
-  bad_time: 'unreadable time',
-  clock: 'time too far ahead or too old',
-  dimension_mismatch: 'wrong number of components',
-  not_finite: 'a number is not finite',
-  not_symmetric: 'S is not symmetric',
-  not_lower_triangular: 'L is not lower triangular',
-  not_positive_definite: 'S is not positive definite',
-  bad_sequence: 'bad sequence number',
-};
 
 /** Rejected payloads: how often by unit and reason, and each one with its reason and the start of its payload. */
 @Component({

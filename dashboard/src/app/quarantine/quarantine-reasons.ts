@@ -1,0 +1,22 @@
+/** What the reason codes mean, in words. */
+export const REASON_WORDS: Record<string, string> = {
+  too_large: 'message over 256 KiB',
+  unknown_estimator: 'no such estimator registered',
+  not_json: 'not JSON',
+  schema: 'does not match the payload schema',
+  bad_time: 'unreadable time',
+  clock: 'time too far ahead or too old',
+  dimension_mismatch: 'wrong number of components',
+  not_finite: 'a number is not finite',
+  not_symmetric: 'S is not symmetric',
+  not_lower_triangular: 'L is not lower triangular',
+  not_positive_definite: 'S is not positive definite',
+  bad_sequence: 'bad sequence number',
+  not_an_object: 'a sample is not an object',
+  missing_field: 'a required field is missing',
+  conflicting_fields: 'fields that exclude each other',
+  wrong_type: 'a field has the wrong type',
+  empty: 'no samples',
+  rate_limit: 'over the unit\'s sample rate',
+  wrong_partition: 'published under another partition than its unit\'s',
+};
