@@ -7,7 +7,7 @@ import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { LocalPostgres, freePort } from './lib/postgres.mjs';
-import { bin, tsNode, ensureDashboardBuilt, ensureDependencies, ensureMosquitto, requireFromProject, root } from './lib/project.mjs';
+import { bin, tsNode, ensureDashboardBuilt, ensureDebianPackages, ensureDependencies, ensureMosquitto, requireFromProject, root } from './lib/project.mjs';
 
 const log = (msg) => console.log(`[test] ${msg}`);
 // `npm test -- --quick …`: skip the type-check and the dashboard build (for quick local runs; CI never passes it).
@@ -15,22 +15,9 @@ const quick = process.argv.includes('--quick');
 const jestArgs = process.argv.slice(2).filter((a) => a !== '--quick');
 
 function ensureChromium() {
-  if (fs.existsSync('/usr/bin/chromium')) return;
-  if (process.getuid?.() !== 0) {
-    throw new Error('Debian chromium is missing for the browser tests: sudo apt-get install -y chromium');
-  }
-  log('installing Debian\'s chromium for the browser tests (apt-get)…');
-  const env = { ...process.env, DEBIAN_FRONTEND: 'noninteractive' };
-  if (spawnSync('apt-get', ['update'], { stdio: 'inherit', env }).status !== 0) throw new Error('apt-get update failed');
-  const r = spawnSync('apt-get', ['install', '-y', '--no-install-recommends', 'chromium', 'fonts-dejavu-core'], {
-    stdio: 'inherit',
-    env,
-  });
-  if (r.status !== 0) throw new Error('apt-get install chromium failed');
+  ensureDebianPackages('/usr/bin/chromium', ['chromium', 'fonts-dejavu-core'], 'the browser tests', log);
 }
 
-// The faults suite runs Debian's mosquitto on loopback as an external broker (its own
-// port and configuration; a system mosquitto on 1883, if the package started one, is not used).
 function typecheck() {
   for (const project of ['shared/tsconfig.json', 'ingest/tsconfig.json', 'dashboard/tsconfig.app.json', 'test/tsconfig.json', 'ingest/bench/tsconfig.json']) {
     if (!fs.existsSync(path.join(root, project))) continue;
@@ -42,6 +29,8 @@ function typecheck() {
 async function main() {
   ensureDependencies(log);
   ensureChromium();
+  // The faults suite runs Debian's mosquitto on loopback as an external broker (its own
+  // port and configuration; a system mosquitto on 1883, if the package started one, is not used).
   ensureMosquitto(log);
   if (!quick) {
     typecheck();

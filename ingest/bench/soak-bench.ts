@@ -49,7 +49,7 @@ import path from 'node:path';
 import bcrypt from 'bcryptjs';
 import pg from 'pg';
 import { syntheticTractors } from '../../simulators/src/saltmarsh-fleet';
-import { benchSecretFor, type FromWorker, type ToWorker, type WorkerConfig, type WorkerCounts } from './bench-fleet';
+import { benchSecretFor, type ToWorker, type WorkerCounts } from './bench-fleet';
 import {
   CHECK_RULES,
   MB,
@@ -58,6 +58,7 @@ import {
   countLogMessages,
   countStoredOfAcknowledged,
   fmtInt,
+  forkPublishers,
   sumWorkerCounts,
   fmtMs,
   gitCommit,
@@ -848,52 +849,13 @@ async function main(): Promise<void> {
   // -- publishers (bench:ingest's publisher-worker.ts)
   const faultUnits = Array.from({ length: o.faultUnits }, (_, k) => Math.floor(((k + 0.5) * o.units) / o.faultUnits));
   const workers = stack.workers;
-  const latest: (WorkerCounts | null)[] = [];
-  const recentP99: (number | null)[] = [];
+  const recentP99: (number | null)[] = Array.from({ length: o.publishers }, () => null);
   const faultStarts = new Map<number, { unitKey: string; seq: number; tMs: number }>();
-  const done: Extract<FromWorker, { type: 'done' }>[] = [];
-  const connectedWaiters: Promise<void>[] = [];
-  const doneWaiters: Promise<void>[] = [];
   let failure: Error | null = null;
   const per = Math.ceil(o.units / o.publishers);
   const connectBegan = performance.now();
-  for (let w = 0; w < o.publishers; w++) {
-    const child = fork(path.join(__dirname, 'publisher-worker.ts'), [], { cwd: root, execArgv: ['--import', 'tsx'], stdio: ['ignore', 'inherit', 'inherit', 'ipc'] });
-    workers.push(child);
-    latest.push(null);
-    recentP99.push(null);
-    let onConnected!: () => void;
-    let onDone!: () => void;
-    let onFail!: (err: Error) => void;
-    connectedWaiters.push(
-      new Promise<void>((resolve, reject) => {
-        onConnected = resolve;
-        onFail = (err) => {
-          failure ??= err;
-          reject(err);
-        };
-      }),
-    );
-    doneWaiters.push(new Promise<void>((resolve) => (onDone = resolve)));
-    let reported = false;
-    child.on('message', (m: FromWorker) => {
-      if (m.type === 'connected') onConnected();
-      else if (m.type === 'progress') {
-        latest[w] = m.counts;
-        recentP99[w] = m.recentP99Ms;
-      } else if (m.type === 'fault') faultStarts.set(m.unitIndex, { unitKey: m.unitKey, seq: m.seq, tMs: m.tMs });
-      else if (m.type === 'done') {
-        reported = true;
-        latest[w] = m.counts;
-        done.push(m);
-        onDone();
-      } else if (m.type === 'error') onFail(new Error(`publisher ${w + 1}: ${m.message}`));
-    });
-    child.on('exit', (code) => {
-      if (!reported) onFail(new Error(`publisher ${w + 1} exited with ${code} before its report`));
-      onDone();
-    });
-    const config: WorkerConfig = {
+  const pubs = forkPublishers(
+    Array.from({ length: o.publishers }, (_, w) => ({
       url: `mqtt://127.0.0.1:${svc.mqttPort}`,
       runKey,
       totalUnits: o.units,
@@ -908,10 +870,17 @@ async function main(): Promise<void> {
       seed: 20261202,
       maxInFlightPerUnit: 1000,
       connectConcurrency: 50,
-    };
-    child.send({ type: 'config', config } satisfies ToWorker);
-  }
-  await Promise.all(connectedWaiters);
+    })),
+    (w, m) => {
+      if (m.type === 'progress') recentP99[w] = m.recentP99Ms;
+      else if (m.type === 'fault') faultStarts.set(m.unitIndex, { unitKey: m.unitKey, seq: m.seq, tMs: m.tMs });
+    },
+  );
+  const latest = pubs.latest;
+  const done = pubs.done;
+  /** The first failure of the publishers or the dashboard users. */
+  const failed = () => failure ?? pubs.failure();
+  await pubs.connected;
   log(`${o.publishers} publisher processes: ${fmtInt(o.units)} units connected in ${Math.round(performance.now() - connectBegan)} ms`);
 
   // -- the dashboard users (this file again, in its own process)
@@ -982,14 +951,14 @@ async function main(): Promise<void> {
     if (v !== null) lastCpu.set(pid, v);
     return lastCpu.get(pid) ?? 0;
   };
-  const publishersCpuNow = () => workers.filter((w) => w !== usersChild).reduce((a, w) => a + (w.pid ? cpuOf(w.pid) : 0), 0);
+  const publishersCpuNow = () => pubs.cpuSeconds();
 
   // -- go: each publisher process starts its units batchS/publishers s after the previous one
   const startAtMs = Date.now() + 1000;
   const offsetMs = (o.batchS * 1000) / o.publishers;
   const faultAtMs = startAtMs + faultAtS * 1000;
-  workers.forEach((w, i) => {
-    if (w !== usersChild) w.send({ type: 'go', startAtMs: Math.round(startAtMs + i * offsetMs), faultAtMs, steadyAtMs: startAtMs + o.warmupS * 1000 } satisfies ToWorker);
+  pubs.children.forEach((w, i) => {
+    w.send({ type: 'go', startAtMs: Math.round(startAtMs + i * offsetMs), faultAtMs, steadyAtMs: startAtMs + o.warmupS * 1000 } satisfies ToWorker);
   });
   usersChild.send({ type: 'go', startAtMs } satisfies ToUsers);
   await sleep(Math.max(0, startAtMs - Date.now()));
@@ -1025,7 +994,8 @@ async function main(): Promise<void> {
   let probeInFlight = false;
   while (Date.now() < endAtMs) {
     await sleep(Math.min(1000 - ((Date.now() - startAtMs) % 1000), endAtMs - Date.now()));
-    if (failure) throw failure;
+    const failedNow = failed();
+    if (failedNow) throw failedNow;
     const now = Date.now();
     const dt = (now - prev.atMs) / 1000;
     if (treeCpuSeconds(servicePid) === null) throw new Error(`the service exited during the run:\n${fs.readFileSync(serviceLog, 'utf8').slice(-3000)}`);
@@ -1138,15 +1108,15 @@ async function main(): Promise<void> {
 
   // -- stop publishing, wait for every PUBACK; the users watch a few seconds longer (late alerts), then leave
   log('stopping the publishers; waiting for every PUBACK…');
-  for (const w of workers) if (w !== usersChild) w.send({ type: 'stop', drainMs: 120_000 } satisfies ToWorker);
-  await Promise.all(doneWaiters);
+  for (const w of pubs.children) w.send({ type: 'stop', drainMs: 120_000 } satisfies ToWorker);
+  await pubs.finished;
   const drainedAtMs = Date.now();
-  if (done.length !== o.publishers) throw failure ?? new Error('a publisher ended without its report');
+  if (done.length !== o.publishers) throw failed() ?? new Error('a publisher ended without its report');
   await sleep(3000);
   usersChild.send({ type: 'stop' } satisfies ToUsers);
   await Promise.race([usersDoneWaiter, sleep(15_000)]);
   const ud = usersState.done;
-  if (!ud) throw failure ?? new Error('the dashboard users ended without their report');
+  if (!ud) throw failed() ?? new Error('the dashboard users ended without their report');
   // The users' last progress report (sent just before 'done') holds their final request counts.
   const usersFinal = usersState.latest;
 

@@ -106,15 +106,23 @@ export function waitForHttp(url, timeoutMs = 60_000) {
   });
 }
 
-/** Debian's mosquitto, the external broker of the faults tests and bench:partitioned (apt-get when missing, as root). */
-export function ensureMosquitto(log = console.log) {
-  if (fs.existsSync('/usr/sbin/mosquitto')) return;
+/**
+ * Debian packages a run needs, installed with apt-get when `binary` is missing (as root;
+ * otherwise an error that says what to install). `what` says who needs them.
+ */
+export function ensureDebianPackages(binary, packages, what, log = console.log) {
+  if (fs.existsSync(binary)) return;
   if (process.getuid?.() !== 0) {
-    throw new Error('Debian mosquitto is missing (the faults tests and bench:partitioned use it): sudo apt-get install -y mosquitto');
+    throw new Error(`${binary} is missing (${what} use it): sudo apt-get install -y ${packages.join(' ')}`);
   }
-  log('installing Debian\'s mosquitto (apt-get)…');
+  log(`installing Debian's ${packages.join(', ')} for ${what} (apt-get)…`);
   const env = { ...process.env, DEBIAN_FRONTEND: 'noninteractive' };
   if (spawnSync('apt-get', ['update'], { stdio: 'inherit', env }).status !== 0) throw new Error('apt-get update failed');
-  const r = spawnSync('apt-get', ['install', '-y', '--no-install-recommends', 'mosquitto'], { stdio: 'inherit', env });
-  if (r.status !== 0) throw new Error('apt-get install mosquitto failed');
+  const r = spawnSync('apt-get', ['install', '-y', '--no-install-recommends', ...packages], { stdio: 'inherit', env });
+  if (r.status !== 0) throw new Error(`apt-get install ${packages.join(' ')} failed`);
+}
+
+/** Debian's mosquitto, the external broker of the faults tests and bench:partitioned. */
+export function ensureMosquitto(log = console.log) {
+  ensureDebianPackages('/usr/sbin/mosquitto', ['mosquitto'], 'the faults tests and bench:partitioned', log);
 }
