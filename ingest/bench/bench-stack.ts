@@ -216,6 +216,21 @@ export function stopBenchPostgres(): void {
   stack.pgRoot = null;
 }
 
+// ---------------------------------------------------------------- options
+
+/** A numeric command-line option's value, at least `min`. */
+export function numberOption(name: string, v: string | undefined, min: number): number {
+  const n = Number(v);
+  if (v === undefined || !Number.isFinite(n) || n < min) throw new Error(`${name} needs a number ≥ ${min}, got ${v}`);
+  return n;
+}
+
+/** The --name of a results file: lower-case letters, digits and -. */
+export function resultsName(v: string | undefined): string {
+  if (!v || !/^[a-z0-9-]+$/.test(v)) throw new Error('--name needs lower-case letters, digits and -');
+  return v;
+}
+
 // ---------------------------------------------------------------- the fleet
 
 /**

@@ -54,6 +54,8 @@ import {
   startBenchService,
   stopBenchPostgres,
   waitForExit,
+  numberOption as num,
+  resultsName,
 } from './bench-stack';
 import { summarizeProfile, type ProfileSummary } from './cpuprofile-summary';
 import { LatencyHistogram } from './latency-histogram';
@@ -148,11 +150,6 @@ function parseOptions(argv: string[]): Options {
   };
   let warmupGiven = false;
   let durationGiven = false;
-  const num = (name: string, v: string | undefined, min: number): number => {
-    const n = Number(v);
-    if (v === undefined || !Number.isFinite(n) || n < min) throw new Error(`${name} needs a number ≥ ${min}, got ${v}`);
-    return n;
-  };
   const kv = (name: string, v: string | undefined): [string, string] => {
     const m = v ? /^([A-Za-z_][A-Za-z0-9_.]*)=(.*)$/.exec(v) : null;
     if (!m) throw new Error(`${name} needs KEY=VALUE, got ${v}`);
@@ -240,12 +237,9 @@ function parseOptions(argv: string[]): Options {
         o.nice = v;
         break;
       }
-      case '--name': {
-        const v = next();
-        if (!v || !/^[a-z0-9-]+$/.test(v)) throw new Error('--name needs lower-case letters, digits and -');
-        o.name = v;
+      case '--name':
+        o.name = resultsName(next());
         break;
-      }
       case '--no-write':
         o.write = false;
         break;

@@ -46,6 +46,8 @@ import {
   sumWorkerCounts,
   waitForExit,
   type BenchService,
+  numberOption as num,
+  resultsName,
 } from './bench-stack';
 import { machineCpuSeconds, rssBytes, treeCpuSeconds } from './proc-sampler';
 
@@ -81,11 +83,6 @@ the workers have drained it after the load.`;
 
 function parseOptions(argv: string[]): Options {
   const o: Options = { workers: 1, partitions: 16, units: 2000, rate: 10, batch: 10, durationS: 120, warmupS: 30, publishers: 2, name: 'latest', write: true };
-  const num = (name: string, v: string | undefined, min: number): number => {
-    const n = Number(v);
-    if (v === undefined || !Number.isFinite(n) || n < min) throw new Error(`${name} needs a number ≥ ${min}, got ${v}`);
-    return n;
-  };
   for (let i = 0; i < argv.length; i++) {
     const a = argv[i];
     const next = () => argv[++i];
@@ -119,12 +116,9 @@ function parseOptions(argv: string[]): Options {
       case '--publishers':
         o.publishers = Math.round(num(a, next(), 1));
         break;
-      case '--name': {
-        const v = next();
-        if (!v || !/^[a-z0-9-]+$/.test(v)) throw new Error('--name needs lower-case letters, digits and -');
-        o.name = v;
+      case '--name':
+        o.name = resultsName(next());
         break;
-      }
       case '--no-write':
         o.write = false;
         break;

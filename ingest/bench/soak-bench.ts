@@ -75,6 +75,8 @@ import {
   startBenchService,
   stopBenchPostgres,
   waitForExit,
+  numberOption as num,
+  resultsName,
 } from './bench-stack';
 import { LatencyHistogram, type HistogramData } from './latency-histogram';
 import { LiveHeapProbe, type LiveHeap } from './live-heap-probe';
@@ -165,11 +167,6 @@ function parseOptions(argv: string[]): Options {
     name: 'latest',
   };
   const given = new Set<string>();
-  const num = (name: string, v: string | undefined, min: number): number => {
-    const n = Number(v);
-    if (v === undefined || !Number.isFinite(n) || n < min) throw new Error(`${name} needs a number ≥ ${min}, got ${v}`);
-    return n;
-  };
   for (let i = 0; i < argv.length; i++) {
     const a = argv[i];
     const next = () => argv[++i];
@@ -237,12 +234,9 @@ function parseOptions(argv: string[]): Options {
         o.serviceEnv[m[1]] = m[2];
         break;
       }
-      case '--name': {
-        const v = next();
-        if (!v || !/^[a-z0-9-]+$/.test(v)) throw new Error('--name needs lower-case letters, digits and -');
-        o.name = v;
+      case '--name':
+        o.name = resultsName(next());
         break;
-      }
       case '--no-write':
         o.write = false;
         break;

@@ -70,6 +70,23 @@ interface UnitState {
 /** `${unit}/${estimator}` */
 export type StreamKey = string;
 
+/** Samples acknowledged by the broker: stream → sequence numbers. */
+export class AckedSamples {
+  readonly byStream = new Map<StreamKey, Set<number>>();
+
+  add(key: StreamKey, seqs: Iterable<number>): void {
+    let set = this.byStream.get(key);
+    if (!set) this.byStream.set(key, (set = new Set()));
+    for (const s of seqs) set.add(s);
+  }
+
+  count(): number {
+    let n = 0;
+    for (const s of this.byStream.values()) n += s.size;
+    return n;
+  }
+}
+
 export class FleetLoad {
   private url: string;
   private readonly units: UnitState[];
@@ -77,7 +94,7 @@ export class FleetLoad {
   private readonly window: number;
   private readonly intervalMs: number;
   private readonly reconnectMs: number;
-  private readonly acked = new Map<StreamKey, Set<number>>();
+  private readonly acked = new AckedSamples();
   private generating = false;
   private closed = false;
   private timer: NodeJS.Timeout | null = null;
@@ -181,19 +198,17 @@ export class FleetLoad {
 
   /** The acknowledged samples: stream → sequence numbers. */
   ackedSamples(): Map<StreamKey, Set<number>> {
-    return this.acked;
+    return this.acked.byStream;
   }
 
   ackedSampleCount(): number {
-    let n = 0;
-    for (const s of this.acked.values()) n += s.size;
-    return n;
+    return this.acked.count();
   }
 
   /** Samples acknowledged since a snapshot (see snapshot()). */
   ackedSince(before: Map<StreamKey, Set<number>>): Map<StreamKey, number[]> {
     const out = new Map<StreamKey, number[]>();
-    for (const [key, seqs] of this.acked) {
+    for (const [key, seqs] of this.acked.byStream) {
       const old = before.get(key);
       const fresh = [...seqs].filter((s) => !old?.has(s));
       if (fresh.length) out.set(key, fresh);
@@ -202,7 +217,7 @@ export class FleetLoad {
   }
 
   snapshot(): Map<StreamKey, Set<number>> {
-    return new Map([...this.acked].map(([k, v]) => [k, new Set(v)]));
+    return new Map([...this.acked.byStream].map(([k, v]) => [k, new Set(v)]));
   }
 
   private open(u: UnitState): void {
@@ -292,9 +307,7 @@ export class FleetLoad {
       if (err || u.client !== client || !u.outstanding.has(msg.id)) return;
       u.outstanding.delete(msg.id);
       this.ackedMessages += 1;
-      let set = this.acked.get(msg.key);
-      if (!set) this.acked.set(msg.key, (set = new Set()));
-      for (const s of msg.seqs) set.add(s);
+      this.acked.add(msg.key, msg.seqs);
       this.pump(u);
     });
   }

@@ -7,7 +7,7 @@
 import mqtt, { type MqttClient } from 'mqtt';
 import { partitionedInnovationsTopic } from '../../ingest/src/broker/topics';
 import { PlantFilter, batchPayload, plantDesign } from '../../simulators/src/index';
-import type { LoadUnit, StreamKey } from './fleet-load';
+import { AckedSamples, type LoadUnit, type StreamKey } from './fleet-load';
 
 export interface PartitionedLoadOptions {
   url: string;
@@ -31,7 +31,7 @@ interface UnitState {
 
 export class PartitionedLoad {
   private readonly units: UnitState[];
-  private readonly acked = new Map<StreamKey, Set<number>>();
+  private readonly acked = new AckedSamples();
   private readonly highest = new Map<StreamKey, number>();
   private timer: NodeJS.Timeout | null = null;
   private generating = false;
@@ -110,13 +110,11 @@ export class PartitionedLoad {
 
   /** stream → acknowledged sequence numbers. */
   ackedSamples(): Map<StreamKey, Set<number>> {
-    return this.acked;
+    return this.acked.byStream;
   }
 
   ackedSampleCount(): number {
-    let n = 0;
-    for (const s of this.acked.values()) n += s.size;
-    return n;
+    return this.acked.count();
   }
 
   /** stream → the highest sequence number acknowledged so far. */
@@ -142,9 +140,7 @@ export class PartitionedLoad {
           this.publishErrors += 1;
           return;
         }
-        let set = this.acked.get(key);
-        if (!set) this.acked.set(key, (set = new Set()));
-        for (const s of samples) set.add(s.seq);
+        this.acked.add(key, samples.map((s) => s.seq));
         this.highest.set(key, Math.max(this.highest.get(key) ?? -1, samples[samples.length - 1].seq));
       },
     );

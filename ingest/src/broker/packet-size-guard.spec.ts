@@ -1,16 +1,5 @@
+import { remainingLength } from '../../../test/support/mqtt-raw';
 import { MqttFrameWatcher } from './packet-size-guard';
-
-/** MQTT's variable-length "remaining length" (MQTT 3.1.1 §2.2.3). */
-function remainingLength(n: number): Buffer {
-  const bytes: number[] = [];
-  do {
-    let b = n % 128;
-    n = Math.floor(n / 128);
-    if (n > 0) b |= 0x80;
-    bytes.push(b);
-  } while (n > 0);
-  return Buffer.from(bytes);
-}
 
 /** A QoS 1 PUBLISH packet (MQTT 3.1.1 §3.3) with a payload of `payloadBytes`. */
 function publish(payloadBytes: number, messageId = 1): Buffer {
